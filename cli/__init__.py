@@ -1,0 +1,1 @@
+"""Command line: argument parsing, terminal tables, reports, exit codes."""

@@ -1,0 +1,1 @@
+"""Finite-element analysis of plates: mesher, elements, assembly, solvers, results."""

@@ -1,0 +1,1 @@
+"""Plate geometry: design model, exact curves, features, kerf and fit, rules, mass, writers."""

@@ -1,0 +1,1 @@
+"""Bundled data libraries (materials, motors, fasteners, machines) and starter designs."""
