@@ -1,0 +1,150 @@
+"""The subcommands of ``platewright``, each a small class registered in COMMANDS."""
+
+from __future__ import annotations
+
+import argparse
+import shutil
+from pathlib import Path
+
+from platewright.geometry.build import bundled_example_path, list_templates
+from platewright.geometry.design import Design, load_design
+from platewright.geometry.errors import DesignError, Problem
+from platewright.geometry.pipeline import BuildResult, build_design
+
+from .outputs import check_output_target, staged_output
+from .terminal import build_summary
+from .write_build import write_build
+
+__all__ = ["COMMANDS", "Command", "default_outdir"]
+
+
+def default_outdir(design_path: Path) -> Path:
+    """Default output folder for a design: ``platewright-out/<design file stem>``."""
+    return Path("platewright-out") / design_path.stem
+
+
+class Command:
+    """One subcommand: a name, a help line, its arguments and what it runs."""
+
+    name = ""
+    help = ""
+
+    def add_arguments(self, parser: argparse.ArgumentParser) -> None:
+        """Add this command's options to ``parser``."""
+
+    def run(self, args: argparse.Namespace) -> int:
+        """Run the command; returns the exit status."""
+        raise NotImplementedError
+
+
+class DesignCommand(Command):
+    """Shared arguments of the commands that read a design file and write an output folder."""
+
+    def add_arguments(self, parser: argparse.ArgumentParser) -> None:
+        parser.add_argument("design", nargs="?", type=Path,
+                            help="design file (YAML); default: the bundled example design")
+        parser.add_argument("-o", "--output", type=Path, metavar="OUTDIR",
+                            help="output folder (default: platewright-out/<design name>)")
+        parser.add_argument("--set", dest="overrides", action="append", default=[],
+                            metavar="PATH=VALUE",
+                            help="override any design field, e.g. references.wheelbase_mm=180 "
+                                 "(repeatable)")
+        parser.add_argument("--machine", metavar="KEY",
+                            help="machine profile key (same as --set machine=KEY)")
+        parser.add_argument("-q", "--quiet", action="store_true", help="no terminal summary")
+
+    def load(self, args: argparse.Namespace) -> tuple[Path, Design, Path]:
+        """Resolve the design path, load and validate it (with overrides) and check the output."""
+        path = args.design if args.design is not None else bundled_example_path()
+        if not path.exists():
+            raise DesignError(Problem("DESIGN", f"no such design file: '{path}'",
+                                      hint="give a YAML design file, or none for the bundled example"))
+        overrides = list(args.overrides)
+        if args.machine:
+            overrides.append(f"machine={args.machine}")
+        design = load_design(path, overrides=overrides)
+        outdir = args.output if args.output is not None else default_outdir(path)
+        check_output_target(outdir.absolute())
+        return path, design, outdir
+
+    @staticmethod
+    def refuse_on_rule_errors(result: BuildResult) -> None:
+        """Manufacturability errors stop the build (exit 2) with a readable list."""
+        problems = [Problem(f"plates.{name}", f"{f.rule}: {f.message}",
+                            hint="features: " + ", ".join(f.features) if f.features else "")
+                    for name, f in result.errors]
+        if problems:
+            raise DesignError(problems, source=str(result.design.source_path))
+
+
+class BuildCommand(DesignCommand):
+    name = "build"
+    help = "build cut-ready files (DXF, SVG, STL, GLB) and the reports for every plate"
+
+    def run(self, args: argparse.Namespace) -> int:
+        _, design, outdir = self.load(args)
+        result = build_design(design)
+        self.refuse_on_rule_errors(result)
+        with staged_output(outdir) as tmp:
+            report = write_build(result, tmp)
+        if not args.quiet:
+            print(build_summary(report, str(outdir)))
+        return 0
+
+
+class FieldsCommand(Command):
+    name = "fields"
+    help = "print the design-file reference: every field with its unit, default and meaning"
+
+    def run(self, args: argparse.Namespace) -> int:
+        from platewright.geometry.schema import describe_schema
+
+        print(describe_schema())
+        return 0
+
+
+class StartersCommand(Command):
+    name = "starters"
+    help = "list the bundled starter designs, or copy one to start your own"
+
+    def add_arguments(self, parser: argparse.ArgumentParser) -> None:
+        parser.add_argument("--copy", nargs=2, metavar=("NAME", "DEST"),
+                            help="copy starter NAME to the file DEST")
+
+    def run(self, args: argparse.Namespace) -> int:
+        starters = {p.stem: p for p in list_templates()}
+        if args.copy:
+            name, dest = args.copy
+            if name not in starters:
+                raise DesignError(Problem("--copy", f"no starter named '{name}'",
+                                          hint="valid: " + ", ".join(sorted(starters))))
+            dest_path = Path(dest)
+            if dest_path.exists():
+                raise DesignError(Problem("--copy", f"'{dest}' already exists", hint="pick a new file"))
+            shutil.copyfile(starters[name], dest_path)
+            print(f"copied {name} to {dest_path}")
+            return 0
+        for stem, path in sorted(starters.items()):
+            first = path.read_text(encoding="utf-8").splitlines()[0].lstrip("# ").strip()
+            print(f"{stem:24s} {first}")
+        return 0
+
+
+class MaterialsCommand(Command):
+    name = "materials"
+    help = "list the material library (refused materials are marked with the reason)"
+
+    def run(self, args: argparse.Namespace) -> int:
+        from platewright.geometry.library import load_materials
+
+        for key, m in sorted(load_materials().items()):
+            if not m.laser_safe:
+                print(f"{key:22s} REFUSED: {m.refusal_reason}")
+                continue
+            print(f"{key:22s} E {m.youngs_modulus_mpa:8.0f} MPa  rho {m.density_kg_m3:6.0f} kg/m3  "
+                  f"{m.strength_kind} {m.strength_mpa:5.0f} MPa  kerf {m.typical_kerf_mm:.2f} mm")
+        return 0
+
+
+COMMANDS: list[Command] = [BuildCommand(), FieldsCommand(), StartersCommand(), MaterialsCommand()]
+

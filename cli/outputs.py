@@ -1,0 +1,64 @@
+"""Atomic output folders: everything is written to a temporary sibling folder, then moved into place.
+
+A failed run removes its temporary folder and leaves an earlier good output untouched.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import tempfile
+import uuid
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+
+from platewright.geometry.errors import DesignError, Problem
+
+__all__ = ["staged_output", "check_output_target"]
+
+
+def _is_ours(folder: Path) -> bool:
+    """True when ``folder`` holds a report.json written by this tool."""
+    report = folder / "report.json"
+    try:
+        data = json.loads(report.read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return False
+    return isinstance(data, dict) and data.get("tool", {}).get("name") == "platewright"
+
+
+def check_output_target(outdir: Path) -> None:
+    """Refuse an output folder we would have to overwrite but did not write ourselves."""
+    if outdir.exists() and not outdir.is_dir():
+        raise DesignError(Problem("-o", f"'{outdir}' exists and is not a folder", hint="name a folder"))
+    if outdir.is_dir() and any(outdir.iterdir()) and not _is_ours(outdir):
+        raise DesignError(
+            Problem(
+                "-o",
+                f"'{outdir}' is not empty and holds no platewright report.json, so it is not replaced",
+                hint="choose a new or empty folder, or an earlier platewright output folder",
+            )
+        )
+
+
+@contextmanager
+def staged_output(outdir: Path) -> Iterator[Path]:
+    """Yield a temporary folder beside ``outdir``; on success it replaces ``outdir`` whole."""
+    outdir = Path(outdir).absolute()
+    check_output_target(outdir)
+    outdir.parent.mkdir(parents=True, exist_ok=True)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{outdir.name}.", suffix=".partial", dir=outdir.parent))
+    try:
+        yield tmp
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    if outdir.exists():
+        old = outdir.parent / f".{outdir.name}.old-{uuid.uuid4().hex[:8]}"
+        os.rename(outdir, old)
+        os.rename(tmp, outdir)
+        shutil.rmtree(old, ignore_errors=True)
+    else:
+        os.rename(tmp, outdir)

@@ -1,0 +1,46 @@
+"""Plain-text tables for the terminal summary."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Any
+
+__all__ = ["format_table", "build_summary"]
+
+
+def format_table(headers: Sequence[str], rows: Sequence[Sequence[str]]) -> str:
+    """A fixed-width table; first column left-aligned, the rest right-aligned."""
+    cols = [list(map(str, c)) for c in zip(headers, *rows)]
+    widths = [max(len(x) for x in c) for c in cols]
+
+    def line(cells: Sequence[str]) -> str:
+        out = []
+        for i, (cell, w) in enumerate(zip(cells, widths)):
+            out.append(str(cell).ljust(w) if i == 0 else str(cell).rjust(w))
+        return "  ".join(out).rstrip()
+
+    sep = "  ".join("-" * w for w in widths)
+    return "\n".join([line(headers), sep, *(line(r) for r in rows)])
+
+
+def build_summary(report: dict[str, Any], outdir: str) -> str:
+    """Terminal summary of a build: one row per plate, totals, where the files went."""
+    rows = []
+    for p in report["plates"]:
+        b = p["bbox_mm"]
+        errors = sum(1 for f in p["findings"] if f["level"] == "error")
+        warnings = sum(1 for f in p["findings"] if f["level"] == "warning")
+        rows.append([p["name"], p["material"], f"{p['thickness_mm']:g}", f"{p['kerf_mm']:.2f}",
+                     f"{b[2] - b[0]:.1f} x {b[3] - b[1]:.1f}", f"{p['mass_g']:.1f}",
+                     str(p["quantity"]), f"{p['cut_length_mm']:.0f}", str(p["pierce_count"]),
+                     f"{errors}/{warnings}"])
+    table = format_table(["plate", "material", "t mm", "kerf mm", "size mm", "mass g", "qty",
+                          "cut mm", "pierces", "err/warn"], rows)
+    lines = [f"{report['design']['name']}: {len(rows)} plate(s), total {report['total_mass_g']:.1f} g",
+             table]
+    for p in report["plates"]:
+        for f in p["findings"]:
+            lines.append(f"  {f['level']}: {p['name']}: {f['rule']}: {f['message']}")
+    lines.append(f"written to {outdir} (report.html, report.json, plates/)")
+    lines.append("Cut safely: fume extraction on, never unattended, no chlorine-bearing plastics.")
+    return "\n".join(lines)
