@@ -24,7 +24,7 @@ path) or the result would cross itself, :class:`OffsetError` is raised.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import shapely
@@ -62,6 +62,7 @@ class _Piece:
     radius: float
     a0: float
     sweep: float
+    sweep_sign: float = 1.0
 
     @staticmethod
     def line(p0: np.ndarray, p1: np.ndarray) -> _Piece:
@@ -72,11 +73,11 @@ class _Piece:
     @staticmethod
     def arc(center: np.ndarray, radius: float, a0: float, sweep: float) -> _Piece:
         z = np.zeros(2)
-        return _Piece(True, z, z, 0.0, 0.0, center.copy(), radius, a0, sweep)
+        sign = 1.0 if sweep > 0 else -1.0
+        return _Piece(True, z, z, 0.0, 0.0, center.copy(), radius, a0, sweep, sign)
 
     def copy(self) -> _Piece:
-        return _Piece(self.is_arc, self.origin, self.u, self.s0, self.s1, self.center,
-                      self.radius, self.a0, self.sweep)
+        return replace(self)
 
     def point(self, at_end: bool) -> np.ndarray:
         if self.is_arc:
@@ -95,10 +96,8 @@ class _Piece:
     def length(self) -> float:
         """Signed length (mm); zero or negative when trimming has eaten the piece."""
         if self.is_arc:
-            return self.radius * self.sweep * (1.0 if self.sweep_sign > 0 else -1.0)
+            return self.radius * self.sweep * self.sweep_sign
         return self.s1 - self.s0
-
-    sweep_sign: float = 1.0
 
     def trim(self, p: np.ndarray, at_end: bool) -> None:
         """Move the start or end of the piece to ``p`` (which lies on its carrier curve)."""
@@ -190,9 +189,7 @@ def _raw_pieces(contour: Contour, d: float) -> list[tuple[_Piece | None, np.ndar
         if r <= LENGTH_TOL_MM:
             out.append((None, p0))
             continue
-        piece = _Piece.arc(np.array(arc.center), r, arc.start_rad, arc.sweep_rad)
-        piece.sweep_sign = 1.0 if arc.sweep_rad > 0 else -1.0
-        out.append((piece, p0))
+        out.append((_Piece.arc(np.array(arc.center), r, arc.start_rad, arc.sweep_rad), p0))
     return out
 
 
@@ -210,9 +207,7 @@ def _join(a: _Piece, b: _Piece, d: float) -> _Piece | None:
         vertex = pa - d * np.array([ta[1], -ta[0]])
         rel = pa - vertex
         a0 = math.atan2(rel[1], rel[0])
-        corner = _Piece.arc(vertex, abs(d), a0, turn)
-        corner.sweep_sign = 1.0 if turn > 0 else -1.0
-        return corner
+        return _Piece.arc(vertex, abs(d), a0, turn)
     hits = _intersections(a, b)
     if not hits:
         raise OffsetError("offset pieces do not meet: the contour is too small for this offset")
@@ -226,7 +221,7 @@ def _assemble(pieces: list[_Piece], d: float) -> list[_Piece]:
     """Join consecutive pieces; drop pieces eaten by trimming and retry until stable."""
     live = [p.copy() for p in pieces]
     while True:
-        if len(live) < 2 and not (len(live) == 1 and live[0].is_arc):
+        if len(live) < 2:
             raise OffsetError("the contour collapses under this offset")
         work = [p.copy() for p in live]
         corners: list[_Piece | None] = []

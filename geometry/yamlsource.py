@@ -54,11 +54,14 @@ class LineMap:
     lines: dict[str, int] = field(default_factory=dict)
     overridden: set[str] = field(default_factory=set)
 
+    def is_overridden(self, path: str) -> bool:
+        """True when ``path`` (or a field enclosing it) was set by a ``--set`` override."""
+        return any(p in self.overridden for p in parent_paths(path))
+
     def line_of(self, path: str) -> int | None:
         """Line of ``path``, or of its closest enclosing field; None if unknown or overridden."""
-        for p in parent_paths(path):
-            if p in self.overridden:
-                return None
+        if self.is_overridden(path):
+            return None
         for p in parent_paths(path):
             if p in self.lines:
                 return self.lines[p]

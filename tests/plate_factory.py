@@ -14,7 +14,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-
 from platewright.geometry.curves import Contour, circle
 from platewright.geometry.model import CutContour, Engraving, Feature, Material, Plate
 

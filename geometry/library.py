@@ -1,0 +1,470 @@
+"""The bundled data libraries: materials, ISO 273 clearance holes, motor patterns, machines.
+
+Data live in YAML files under ``platewright.templates`` (each value with its source). Files are
+parsed once (``functools.lru_cache``); every public loader hands out fresh copies of frozen
+objects, so a caller can never change the cached library.
+
+Units: lengths mm, moduli and strength MPa, density kg/m^3, speeds mm/s, times s.
+"""
+
+from __future__ import annotations
+
+import copy
+import difflib
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from functools import lru_cache
+from importlib.resources import files
+from typing import Any
+
+import yaml
+
+from .model import Material
+
+__all__ = [
+    "StrapPattern",
+    "MotorPattern",
+    "SheetStock",
+    "MachineProfile",
+    "load_materials",
+    "get_material",
+    "check_laser_safe",
+    "clearance_hole_mm",
+    "clearance_sizes",
+    "load_motors",
+    "get_motor",
+    "load_machines",
+    "get_machine",
+    "machine_from_mapping",
+    "kerf_for",
+]
+
+_TEMPLATES = "platewright.templates"
+_FIT_CLASSES = ("press", "transition", "slide", "clearance")
+_STRENGTH_KINDS = ("yield", "tensile", "modulus_of_rupture")
+_THICKNESS_MATCH_MM = 1e-6
+
+
+@dataclass(frozen=True)
+class StrapPattern:
+    """Two strap slots either side of a round motor lying on the plate (mm).
+
+    The slots lie at ``y = +-spacing_mm / 2`` from the motor axis (which runs along x), each
+    ``slot_length_mm`` long along x and ``slot_width_mm`` wide.
+    """
+
+    slot_width_mm: float
+    slot_length_mm: float
+    spacing_mm: float
+
+
+@dataclass(frozen=True)
+class MotorPattern:
+    """A motor face pattern relative to the shaft axis (mm).
+
+    ``body_mm``: (x, y) outer size of the body (a round body gives its diameter twice).
+    ``holes``: tuple of (x_mm, y_mm, diameter_mm); screw sizes are already resolved to ISO 273
+    medium clearance unless the library gave a diameter. ``pilot_diameter_mm``: nominal hole that
+    clears the centring boss (None: no pilot hole). ``hole_screws``: the screw size per hole, or
+    "" where a diameter was given.
+    """
+
+    key: str
+    name: str
+    kind: str
+    body_mm: tuple[float, float]
+    holes: tuple[tuple[float, float, float], ...]
+    pilot_diameter_mm: float | None
+    shaft_mm: float
+    strap: StrapPattern | None
+    caution: str
+    sources: dict[str, str]
+    body_shape: str = "square"
+    hole_screws: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class SheetStock:
+    """One stock sheet a shop holds: material key, thickness (mm), size (x, y) mm, price each."""
+
+    material: str
+    thickness_mm: float
+    size_mm: tuple[float, float]
+    price: float | None = None
+
+
+@dataclass(frozen=True)
+class MachineProfile:
+    """A cutting machine profile (example values in the bundled files: measure your own).
+
+    ``bed_mm``: (x, y) usable bed, None when unknown. ``kerf_mm``: default kerf, None when the
+    material's typical kerf should be used. ``kerf_by_material``: material key -> tuple of
+    (thickness_mm or None for any thickness, kerf_mm). ``cut_speed_mm_s``: the same shape with
+    speeds in mm/s. ``pierce_s`` s per pierce, ``travel_mm_s`` rapid speed, ``hourly_rate`` in
+    ``currency`` per hour.
+    """
+
+    key: str
+    name: str
+    bed_mm: tuple[float, float] | None
+    kerf_mm: float | None
+    kerf_by_material: dict[str, tuple[tuple[float | None, float], ...]]
+    kind: str = ""
+    cut_speed_mm_s: dict[str, tuple[tuple[float | None, float], ...]] = field(
+        default_factory=dict
+    )
+    pierce_s: float | None = None
+    travel_mm_s: float | None = None
+    hourly_rate: float | None = None
+    currency: str = ""
+    sheets: tuple[SheetStock, ...] = ()
+    notes: str = ""
+    sources: dict[str, str] = field(default_factory=dict)
+
+
+# ---------------------------------------------------------------------------------------------
+# helpers
+
+
+def _read_yaml(*parts: str) -> Any:
+    node = files(_TEMPLATES)
+    for p in parts:
+        node = node / p
+    return yaml.safe_load(node.read_text(encoding="utf-8"))
+
+
+def _unknown_key(kind: str, key: str, valid: list[str]) -> KeyError:
+    close = difflib.get_close_matches(key, valid, n=3, cutoff=0.5)
+    hint = f"; did you mean {', '.join(repr(c) for c in close)}?" if close else ""
+    return KeyError(f"unknown {kind} {key!r}{hint} (valid: {', '.join(sorted(valid))})")
+
+
+def _number(where: str, value: Any, *, positive: bool = False, allow_zero: bool = False) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise ValueError(f"{where}: expected a number, got {value!r}")
+    v = float(value)
+    if not math.isfinite(v):
+        raise ValueError(f"{where}: must be finite, got {value!r}")
+    if positive and not (v > 0 or (allow_zero and v == 0)):
+        need = "zero or more" if allow_zero else "greater than zero"
+        raise ValueError(f"{where}: must be {need}, got {value!r}")
+    return v
+
+
+def _pair(where: str, value: Any) -> tuple[float, float]:
+    if not isinstance(value, (list, tuple)) or len(value) != 2:
+        raise ValueError(f"{where}: expected two numbers [x, y] in mm, got {value!r}")
+    return (
+        _number(f"{where}[0]", value[0], positive=True),
+        _number(f"{where}[1]", value[1], positive=True),
+    )
+
+
+# ---------------------------------------------------------------------------------------------
+# materials
+
+
+def _material(key: str, d: Mapping[str, Any]) -> Material:
+    where = f"materials.{key}"
+    laser_safe = bool(d.get("laser_safe", True))
+    sources = {str(k): str(v) for k, v in (d.get("sources") or {}).items()}
+    if not laser_safe:
+        nan = float("nan")
+        return Material(
+            key=key, name=str(d.get("name", key)), youngs_modulus_mpa=nan, poisson_ratio=nan,
+            density_kg_m3=nan, strength_mpa=nan, strength_kind="", typical_kerf_mm=nan,
+            fit_allowance_mm={}, min_web_mm=None, laser_safe=False,
+            refusal_reason=str(d["refusal_reason"]), warning=str(d.get("warning", "")),
+            sources=sources,
+        )
+    kind = str(d["strength_kind"])
+    if kind not in _STRENGTH_KINDS:
+        raise ValueError(f"{where}.strength_kind: {kind!r} is not one of {_STRENGTH_KINDS}")
+    fits = {str(k): _number(f"{where}.fit_allowance_mm.{k}", v)
+            for k, v in d["fit_allowance_mm"].items()}
+    ortho = d.get("orthotropic")
+    min_web = d.get("min_web_mm")
+    return Material(
+        key=key,
+        name=str(d["name"]),
+        youngs_modulus_mpa=_number(f"{where}.youngs_modulus_mpa", d["youngs_modulus_mpa"],
+                                   positive=True),
+        poisson_ratio=_number(f"{where}.poisson_ratio", d["poisson_ratio"]),
+        density_kg_m3=_number(f"{where}.density_kg_m3", d["density_kg_m3"], positive=True),
+        strength_mpa=_number(f"{where}.strength_mpa", d["strength_mpa"], positive=True),
+        strength_kind=kind,
+        typical_kerf_mm=_number(f"{where}.typical_kerf_mm", d["typical_kerf_mm"], positive=True),
+        fit_allowance_mm=fits,
+        min_web_mm=None if min_web is None else _number(f"{where}.min_web_mm", min_web,
+                                                        positive=True),
+        laser_safe=True,
+        warning=str(d.get("warning", "")),
+        orthotropic=None if ortho is None else {
+            str(k): _number(f"{where}.orthotropic.{k}", v) for k, v in ortho.items()
+        },
+        sources=sources,
+    )
+
+
+@lru_cache(maxsize=1)
+def _materials_cached() -> dict[str, Material]:
+    raw = _read_yaml("materials.yaml")
+    return {str(k): _material(str(k), v) for k, v in raw.items()}
+
+
+def load_materials() -> dict[str, Material]:
+    """All library materials by key, including refused ones (``laser_safe`` False).
+
+    Refused materials carry NaN for their numeric fields and a ``refusal_reason``; callers must
+    refuse them (see :func:`check_laser_safe`).
+    """
+    return copy.deepcopy(_materials_cached())
+
+
+def get_material(key: str) -> Material:
+    """The library material ``key``; KeyError naming close matches and the valid keys."""
+    cached = _materials_cached()
+    if key not in cached:
+        raise _unknown_key("material", key, list(cached))
+    return copy.deepcopy(cached[key])
+
+
+def check_laser_safe(material: Material) -> None:
+    """Raise ValueError with the reason when ``material`` must never be laser-cut."""
+    if not material.laser_safe:
+        raise ValueError(f"material {material.key!r} is refused: {material.refusal_reason}")
+
+
+# ---------------------------------------------------------------------------------------------
+# ISO 273 clearance holes
+
+
+@lru_cache(maxsize=1)
+def _iso273() -> tuple[tuple[str, ...], dict[str, dict[str, float]]]:
+    raw = _read_yaml("fasteners.yaml")["iso_273_clearance_mm"]
+    series = tuple(str(s) for s in raw["series"])
+    sizes = {str(k): {s: float(v[s]) for s in series} for k, v in raw["sizes"].items()}
+    return series, sizes
+
+
+def clearance_sizes() -> tuple[str, ...]:
+    """The screw sizes in the ISO 273 table, smallest first (e.g. ``"M3"``)."""
+    return tuple(_iso273()[1])
+
+
+def clearance_hole_mm(size: str, series: str = "medium") -> float:
+    """ISO 273 clearance hole diameter (mm) for a metric screw ``size`` like ``"M3"``.
+
+    ``series``: ``fine``, ``medium`` (default) or ``coarse``. KeyError for an unknown size and
+    ValueError for an unknown series, each listing what is valid.
+    """
+    valid_series, sizes = _iso273()
+    if series not in valid_series:
+        raise ValueError(
+            f"unknown clearance series {series!r} (valid: {', '.join(valid_series)})"
+        )
+    norm = size.strip().upper() if isinstance(size, str) else size
+    if norm not in sizes:
+        raise _unknown_key("screw size", str(size), list(sizes))
+    return sizes[norm][series]
+
+
+# ---------------------------------------------------------------------------------------------
+# motors
+
+
+def _motor(key: str, d: Mapping[str, Any]) -> MotorPattern:
+    where = f"motors.{key}"
+    holes: list[tuple[float, float, float]] = []
+    screws: list[str] = []
+    for i, h in enumerate(d["holes"]):
+        hw = f"{where}.holes[{i}]"
+        x = _number(f"{hw}.x_mm", h["x_mm"])
+        y = _number(f"{hw}.y_mm", h["y_mm"])
+        if "diameter_mm" in h:
+            dia = _number(f"{hw}.diameter_mm", h["diameter_mm"], positive=True)
+            screws.append("")
+        else:
+            dia = clearance_hole_mm(str(h["screw"]), "medium")
+            screws.append(str(h["screw"]))
+        holes.append((x, y, dia))
+    strap = None
+    if d.get("strap") is not None:
+        s = d["strap"]
+        strap = StrapPattern(
+            slot_width_mm=_number(f"{where}.strap.slot_width_mm", s["slot_width_mm"],
+                                  positive=True),
+            slot_length_mm=_number(f"{where}.strap.slot_length_mm", s["slot_length_mm"],
+                                   positive=True),
+            spacing_mm=_number(f"{where}.strap.spacing_mm", s["spacing_mm"], positive=True),
+        )
+    pilot = d.get("pilot_diameter_mm")
+    return MotorPattern(
+        key=key,
+        name=str(d["name"]),
+        kind=str(d["kind"]),
+        body_mm=_pair(f"{where}.body_mm", d["body_mm"]),
+        holes=tuple(holes),
+        pilot_diameter_mm=None if pilot is None else _number(f"{where}.pilot_diameter_mm",
+                                                             pilot, positive=True),
+        shaft_mm=_number(f"{where}.shaft_mm", d["shaft_mm"], positive=True),
+        strap=strap,
+        caution=str(d.get("caution", "")),
+        sources={str(k): str(v) for k, v in (d.get("sources") or {}).items()},
+        body_shape=str(d.get("body_shape", "square")),
+        hole_screws=tuple(screws),
+    )
+
+
+@lru_cache(maxsize=1)
+def _motors_cached() -> dict[str, MotorPattern]:
+    raw = _read_yaml("motors.yaml")
+    return {str(k): _motor(str(k), v) for k, v in raw.items()}
+
+
+def load_motors() -> dict[str, MotorPattern]:
+    """All library motor patterns by key (``nema17``, ``gearmotor_25mm``, ...)."""
+    return copy.deepcopy(_motors_cached())
+
+
+def get_motor(key: str) -> MotorPattern:
+    """The library motor pattern ``key``; KeyError naming close matches and the valid keys."""
+    cached = _motors_cached()
+    if key not in cached:
+        raise _unknown_key("motor", key, list(cached))
+    return copy.deepcopy(cached[key])
+
+
+# ---------------------------------------------------------------------------------------------
+# machines
+
+_MACHINE_KEYS = (
+    "name", "kind", "notes", "bed_mm", "kerf_mm", "kerf_mm_by_material", "cut_speed_mm_s",
+    "pierce_s", "travel_mm_s", "hourly_rate", "currency", "sheets", "sources",
+)
+
+
+def _table(where: str, raw: Any, value_key: str) -> dict[str, tuple[tuple[float | None, float],
+                                                                   ...]]:
+    if raw is None:
+        return {}
+    if not isinstance(raw, Mapping):
+        raise ValueError(f"{where}: expected a mapping material -> list of entries")
+    out: dict[str, tuple[tuple[float | None, float], ...]] = {}
+    for mat, entries in raw.items():
+        mw = f"{where}.{mat}"
+        if isinstance(entries, (int, float)) and not isinstance(entries, bool):
+            entries = [{value_key: entries}]
+        if not isinstance(entries, list):
+            raise ValueError(f"{mw}: expected a number or a list of "
+                             f"{{thickness_mm, {value_key}}} entries")
+        rows: list[tuple[float | None, float]] = []
+        for i, e in enumerate(entries):
+            if not isinstance(e, Mapping) or value_key not in e:
+                raise ValueError(f"{mw}[{i}]: expected {{thickness_mm, {value_key}}}, got {e!r}")
+            t = e.get("thickness_mm")
+            rows.append((
+                None if t is None else _number(f"{mw}[{i}].thickness_mm", t, positive=True),
+                _number(f"{mw}[{i}].{value_key}", e[value_key], positive=True),
+            ))
+        out[str(mat)] = tuple(rows)
+    return out
+
+
+def machine_from_mapping(d: Mapping[str, Any], key: str = "inline") -> MachineProfile:
+    """A machine profile from a mapping (an inline ``machine:`` block or a profile file).
+
+    Every field is optional; unknown fields raise ValueError naming the valid ones. Numbers are
+    checked (lengths mm, speeds mm/s, times s must be positive).
+    """
+    if not isinstance(d, Mapping):
+        raise ValueError(f"machine: expected a mapping, got {type(d).__name__}")
+    unknown = [k for k in d if k not in _MACHINE_KEYS]
+    if unknown:
+        close = difflib.get_close_matches(str(unknown[0]), _MACHINE_KEYS, n=1)
+        hint = f"; did you mean {close[0]!r}?" if close else ""
+        raise ValueError(f"machine: unknown field {unknown[0]!r}{hint} "
+                         f"(valid: {', '.join(_MACHINE_KEYS)})")
+
+    def opt(name: str, allow_zero: bool = False) -> float | None:
+        v = d.get(name)
+        return None if v is None else _number(f"machine.{name}", v, positive=True,
+                                              allow_zero=allow_zero)
+
+    sheets = []
+    for i, s in enumerate(d.get("sheets") or []):
+        sw = f"machine.sheets[{i}]"
+        if not isinstance(s, Mapping):
+            raise ValueError(f"{sw}: expected a mapping {{material, thickness_mm, size_mm, price}}")
+        price = s.get("price")
+        sheets.append(SheetStock(
+            material=str(s["material"]),
+            thickness_mm=_number(f"{sw}.thickness_mm", s["thickness_mm"], positive=True),
+            size_mm=_pair(f"{sw}.size_mm", s["size_mm"]),
+            price=None if price is None else _number(f"{sw}.price", price, positive=True,
+                                                     allow_zero=True),
+        ))
+    bed = d.get("bed_mm")
+    return MachineProfile(
+        key=key,
+        name=str(d.get("name", key)),
+        bed_mm=None if bed is None else _pair("machine.bed_mm", bed),
+        kerf_mm=opt("kerf_mm", allow_zero=True),
+        kerf_by_material=_table("machine.kerf_mm_by_material", d.get("kerf_mm_by_material"),
+                                "kerf_mm"),
+        kind=str(d.get("kind", "")),
+        cut_speed_mm_s=_table("machine.cut_speed_mm_s", d.get("cut_speed_mm_s"), "speed_mm_s"),
+        pierce_s=opt("pierce_s", allow_zero=True),
+        travel_mm_s=opt("travel_mm_s"),
+        hourly_rate=opt("hourly_rate", allow_zero=True),
+        currency=str(d.get("currency", "")),
+        sheets=tuple(sheets),
+        notes=str(d.get("notes", "")),
+        sources={str(k): str(v) for k, v in (d.get("sources") or {}).items()},
+    )
+
+
+@lru_cache(maxsize=1)
+def _machines_cached() -> dict[str, MachineProfile]:
+    out: dict[str, MachineProfile] = {}
+    folder = files(_TEMPLATES) / "machines"
+    for entry in sorted(folder.iterdir(), key=lambda p: p.name):
+        if entry.name.endswith(".yaml"):
+            key = entry.name[: -len(".yaml")]
+            out[key] = machine_from_mapping(yaml.safe_load(entry.read_text(encoding="utf-8")),
+                                            key=key)
+    return out
+
+
+def load_machines() -> dict[str, MachineProfile]:
+    """All bundled machine profiles by key (the file name without ``.yaml``)."""
+    return copy.deepcopy(_machines_cached())
+
+
+def get_machine(key: str) -> MachineProfile:
+    """The bundled machine profile ``key``; KeyError naming close matches and the valid keys."""
+    cached = _machines_cached()
+    if key not in cached:
+        raise _unknown_key("machine", key, list(cached))
+    return copy.deepcopy(cached[key])
+
+
+def kerf_for(machine: MachineProfile | None, material_key: str, thickness_mm: float) -> float:
+    """Kerf (mm) to use for a material key and sheet thickness (mm).
+
+    Order: the profile's entry for this material and thickness (matched to 1e-6 mm), then its
+    any-thickness entry for the material, then the profile default ``kerf_mm``, then the
+    material's ``typical_kerf_mm`` from the library.
+    """
+    if machine is not None:
+        rows = machine.kerf_by_material.get(material_key, ())
+        for t, k in rows:
+            if t is not None and abs(t - thickness_mm) <= _THICKNESS_MATCH_MM:
+                return k
+        for t, k in rows:
+            if t is None:
+                return k
+        if machine.kerf_mm is not None:
+            return machine.kerf_mm
+    return get_material(material_key).typical_kerf_mm
