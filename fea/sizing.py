@@ -26,6 +26,7 @@ All lengths in mm.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 
 import numpy as np
 from scipy.spatial import cKDTree
@@ -38,6 +39,8 @@ __all__ = [
     "local_feature_radius",
     "boundary_size_field",
     "estimate_node_count",
+    "bayer_matrix",
+    "graded_lattice",
 ]
 
 #: Element size as a fraction of the local feature radius (half a web width, a hole radius).
@@ -219,3 +222,100 @@ def estimate_node_count(
     """
     h = field(inside)
     return float(boundary_nodes + np.sum(2.0 / (math.sqrt(3.0) * h * h)) * cell_area_mm2)
+
+
+# --- Size-graded interior point sets ----------------------------------------------------------
+#
+# Nested triangular lattices thinned by ordered dithering. A triangular (equilateral) lattice of
+# spacing s has node density 2 / (sqrt(3) s^2). Halving its spacing gives a lattice that contains
+# it (the new nodes are the edge midpoints), so levels j = 0, 1, ... of spacing
+# s_j = max_size / 2^j nest. Where the size field asks for h between s_{j+1} and s_j, all level-j
+# nodes are kept and a fraction f = ((s_j / h)^2 - 1) / 3 of the new level-(j+1) nodes, so the
+# node density follows 2 / (sqrt(3) h^2) continuously. Which new nodes are kept is decided by a
+# threshold matrix (ordered dithering, B. E. Bayer, "An optimum method for two-level rendition of
+# continuous-tone pictures", IEEE ICC 1973): deterministic and evenly spread. Only the lattice
+# near regions that need level j+1 is built, so the cost follows the number of nodes kept.
+
+#: The six lattice-neighbour directions in (i, k) lattice coordinates (basis a1 = (s, 0),
+#: a2 = (s / 2, s sqrt(3) / 2)).
+_DIRS = np.array([[1, 0], [-1, 0], [0, 1], [0, -1], [1, -1], [-1, 1]], dtype=np.int64)
+#: Level-j lattice nodes farther than this (in levels) from needing level j+1 spawn no children.
+_LEVEL_MARGIN = 1.0
+_MAX_LEVELS = 24
+
+
+def bayer_matrix(order: int) -> np.ndarray:
+    """The 2^order x 2^order ordered-dither threshold matrix: (n, n) int, values 0 .. n^2 - 1."""
+    m = np.zeros((1, 1), dtype=np.int64)
+    for _ in range(order):
+        m = np.block([[4 * m, 4 * m + 2], [4 * m + 3, 4 * m + 1]])
+    return m
+
+
+_BAYER8 = bayer_matrix(3)
+
+
+def _xy(ik: np.ndarray, origin: np.ndarray, s_fine: float) -> np.ndarray:
+    i = ik[:, 0].astype(float)
+    k = ik[:, 1].astype(float)
+    return np.column_stack(
+        [origin[0] + (i + 0.5 * k) * s_fine, origin[1] + k * (s_fine * math.sqrt(3.0) / 2.0)]
+    )
+
+
+def _dither_threshold(ik: np.ndarray, half: int) -> np.ndarray:
+    """Threshold in (0, 1) for new nodes of a level; ``ik`` are odd multiples of ``half``."""
+    a = ik[:, 0] // half
+    b = ik[:, 1] // half
+    odd_a = (a % 2) == 1
+    odd_b = (b % 2) == 1
+    cls = np.where(odd_a & ~odd_b, 0, np.where(~odd_a & odd_b, 1, 2))
+    v = _BAYER8[(a // 2) % 8, (b // 2) % 8]
+    return (cls * 64 + v + 0.5) / 192.0
+
+
+def graded_lattice(
+    bbox_mm: tuple[float, float, float, float],
+    size_fn: Callable[[np.ndarray], np.ndarray],
+    max_size_mm: float,
+    min_size_mm: float,
+) -> np.ndarray:
+    """Points covering ``bbox_mm`` (xmin, ymin, xmax, ymax) with spacing following ``size_fn``.
+
+    ``size_fn``: (m, 2) float mm -> (m,) float mm, values in [min_size_mm, max_size_mm].
+    Returns (p, 2) float, mm, covering the box grown by ``max_size_mm`` (callers clip to the
+    region).
+    """
+    h0 = float(max_size_mm)
+    levels = int(min(_MAX_LEVELS, max(0, math.ceil(math.log2(h0 / min_size_mm) - 1e-9))))
+    step0 = 1 << levels
+    s_fine = h0 / step0
+    x0, y0, x1, y1 = bbox_mm
+    origin = np.array([x0 - h0, y0 - h0])
+    width = (x1 - x0) + 2.0 * h0
+    height = (y1 - y0) + 2.0 * h0
+    rows = np.arange(int(math.ceil(height / (h0 * math.sqrt(3.0) / 2.0))) + 1, dtype=np.int64)
+    ncols = int(math.floor(width / h0)) + 2
+    c = -(rows // 2)[:, None] + np.arange(ncols, dtype=np.int64)[None, :]
+    ik = np.column_stack(
+        [(c * step0).ravel(), np.repeat(rows * step0, ncols)]
+    ).astype(np.int64)
+    lam = np.log2(h0 / size_fn(_xy(ik, origin, s_fine)))
+    kept = [ik]
+    cur, cur_lam = ik, lam
+    for j in range(levels):
+        parents = cur[cur_lam > j - _LEVEL_MARGIN]
+        if len(parents) == 0:
+            break
+        half = 1 << (levels - j - 1)
+        cand = (parents[:, None, :] + half * _DIRS[None, :, :]).reshape(-1, 2)
+        cand = np.unique(cand, axis=0)
+        cand_lam = np.log2(h0 / size_fn(_xy(cand, origin, s_fine)))
+        frac = np.clip((np.power(4.0, cand_lam - j) - 1.0) / 3.0, 0.0, 1.0)
+        keep = _dither_threshold(cand, half) < frac
+        kept.append(cand[keep])
+        nxt = np.concatenate([cur, cand])
+        nxt_lam = np.concatenate([cur_lam, cand_lam])
+        sel = nxt_lam > (j + 1) - _LEVEL_MARGIN
+        cur, cur_lam = nxt[sel], nxt_lam[sel]
+    return _xy(np.concatenate(kept), origin, s_fine)

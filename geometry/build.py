@@ -183,7 +183,7 @@ def _label(design: Design, spec: PlateSpec, outline: Feature, kerf: float) -> tu
     text = lab.text
     if text is None:
         parts = [spec.name, spec.part_number, f"{spec.material.key} {spec.thickness_mm:g} mm",
-                 f"kerf {kerf:.2f}"]
+                 f"kerf {kerf:.2f} mm"]
         text = "  ".join(p for p in parts if p)
     if lab.at_mm is not None:
         at = lab.at_mm

@@ -21,7 +21,7 @@ from .errors import DesignError, Problem
 from .library import MachineProfile
 from .model import Material
 from .overrides import apply_overrides
-from .schema import suggest, validate_design
+from .schema import DEFAULT_LABEL_HEIGHT_MM, suggest, validate_design
 from .yamlsource import LineMap, format_path, parse_yaml
 
 __all__ = [
@@ -207,7 +207,7 @@ def _plate(d: dict, i: int, top: dict, top_material: Material | None, res: _Reso
     lab = d["label"]
     label = None
     if lab is True:
-        label = LabelSpec(None, 3.0, 0.0, None)
+        label = LabelSpec(None, DEFAULT_LABEL_HEIGHT_MM, 0.0, None)
     elif isinstance(lab, dict):
         at = lab["at_mm"]
         label = LabelSpec(None if at is None else (at[0], at[1]), lab["height_mm"],

@@ -172,72 +172,105 @@ def _intersections(a: _Piece, b: _Piece) -> list[np.ndarray]:
     return _circle_circle(a.center, a.radius, b.center, b.radius)
 
 
-def _raw_pieces(contour: Contour, d: float) -> list[tuple[_Piece | None, np.ndarray]]:
-    """Each segment moved by ``d`` (None where an arc's radius reaches zero), with its original
-    start vertex."""
-    out: list[tuple[_Piece | None, np.ndarray]] = []
+def _raw_pieces(contour: Contour, d: float) -> list[_Piece | None]:
+    """Each segment moved by ``d``; None where an arc's radius reaches zero."""
+    out: list[_Piece | None] = []
     for p0, p1, b in contour.segments():
-        if float(np.hypot(*(p1 - p0))) < LENGTH_TOL_MM:
+        chord = float(np.hypot(*(p1 - p0)))
+        if chord < LENGTH_TOL_MM:
             continue
         if b == 0.0:
-            t = (p1 - p0) / float(np.hypot(*(p1 - p0)))
+            t = (p1 - p0) / chord
             n = np.array([t[1], -t[0]])
-            out.append((_Piece.line(p0 + d * n, p1 + d * n), p0))
+            out.append(_Piece.line(p0 + d * n, p1 + d * n))
             continue
         arc = segment_arc(p0, p1, b)
         r = arc.radius + d if arc.sweep_rad > 0 else arc.radius - d
         if r <= LENGTH_TOL_MM:
-            out.append((None, p0))
+            out.append(None)
             continue
-        out.append((_Piece.arc(np.array(arc.center), r, arc.start_rad, arc.sweep_rad), p0))
+        out.append(_Piece.arc(np.array(arc.center), r, arc.start_rad, arc.sweep_rad))
     return out
 
 
-def _join(a: _Piece, b: _Piece, d: float) -> _Piece | None:
-    """Join the end of ``a`` to the start of ``b`` in place; returns an inserted corner arc."""
+def _with_corners(raw: list[_Piece | None], d: float) -> tuple[list[_Piece], list[bool]]:
+    """Insert a round corner of radius |d| about each original vertex where the offsets
+    separate. Returns the pieces and, per piece, whether its END must be trimmed against the
+    start of the next piece (False: they already meet)."""
+    pieces: list[_Piece] = []
+    trim_after: list[bool] = []
+    n = len(raw)
+    for i, a in enumerate(raw):
+        if a is None:
+            if trim_after:
+                trim_after[-1] = True  # a collapsed arc: its neighbours must be trimmed
+            continue
+        pieces.append(a)
+        trim_after.append(False)
+        b = raw[(i + 1) % n]
+        if b is None:
+            trim_after[-1] = True
+            continue
+        pa, pb = a.point(at_end=True), b.point(at_end=False)
+        if float(np.hypot(*(pa - pb))) <= _JOIN_TOL_MM:
+            continue  # tangent join
+        ta, tb = a.tangent(at_end=True), b.tangent(at_end=False)
+        turn = math.atan2(_cross(ta, tb), float(np.dot(ta, tb)))
+        if turn * d > 0.0:
+            # the offsets separate: round corner about the original vertex
+            vertex = pa - d * np.array([ta[1], -ta[0]])
+            a0 = math.atan2(pa[1] - vertex[1], pa[0] - vertex[0])
+            pieces.append(_Piece.arc(vertex, abs(d), a0, turn))
+            trim_after.append(False)
+        else:
+            trim_after[-1] = True
+    if raw and raw[0] is None and trim_after:
+        trim_after[-1] = True
+    return pieces, trim_after
+
+
+def _trim(a: _Piece, b: _Piece) -> None:
+    """Trim the end of ``a`` and the start of ``b`` to the crossing nearest their ends."""
     pa = a.point(at_end=True)
     pb = b.point(at_end=False)
     if float(np.hypot(*(pa - pb))) <= _JOIN_TOL_MM:
-        return None
-    ta = a.tangent(at_end=True)
-    tb = b.tangent(at_end=False)
-    turn = math.atan2(_cross(ta, tb), float(np.dot(ta, tb)))
-    if turn * d > 0.0:
-        # the offsets separate: round corner of radius |d| about the original vertex
-        vertex = pa - d * np.array([ta[1], -ta[0]])
-        rel = pa - vertex
-        a0 = math.atan2(rel[1], rel[0])
-        return _Piece.arc(vertex, abs(d), a0, turn)
+        return
     hits = _intersections(a, b)
     if not hits:
         raise OffsetError("offset pieces do not meet: the contour is too small for this offset")
     best = min(hits, key=lambda p: float(np.hypot(*(p - pa)) + np.hypot(*(p - pb))))
     a.trim(best, at_end=True)
     b.trim(best, at_end=False)
-    return None
 
 
-def _assemble(pieces: list[_Piece], d: float) -> list[_Piece]:
-    """Join consecutive pieces; drop pieces eaten by trimming and retry until stable."""
-    live = [p.copy() for p in pieces]
+def _assemble(raw: list[_Piece | None], d: float) -> list[_Piece]:
+    """Corners, then trims; pieces eaten by trimming are dropped and their neighbours trimmed
+    against each other, until nothing more vanishes."""
+    live, trim_after = _with_corners(raw, d)
     while True:
         if len(live) < 2:
             raise OffsetError("the contour collapses under this offset")
         work = [p.copy() for p in live]
-        corners: list[_Piece | None] = []
         for i in range(len(work)):
-            corners.append(_join(work[i], work[(i + 1) % len(work)], d))
-        gone = [i for i, p in enumerate(work) if p.length() <= LENGTH_TOL_MM]
+            if trim_after[i]:
+                _trim(work[i], work[(i + 1) % len(work)])
+        gone = {i for i, p in enumerate(work) if p.length() <= LENGTH_TOL_MM}
         if not gone:
-            out: list[_Piece] = []
-            for p, c in zip(work, corners):
-                out.append(p)
-                if c is not None and c.length() > LENGTH_TOL_MM:
-                    out.append(c)
-            return out
+            return work
         if len(gone) == len(work):
             raise OffsetError("the contour collapses under this offset")
-        live = [p for i, p in enumerate(live) if i not in gone]
+        keep_live: list[_Piece] = []
+        keep_trim: list[bool] = []
+        for i, p in enumerate(live):
+            if i in gone:
+                if keep_trim:
+                    keep_trim[-1] = True
+                continue
+            keep_live.append(p)
+            keep_trim.append(trim_after[i] or ((i + 1) % len(live)) in gone)
+        if 0 in gone and keep_trim:
+            keep_trim[-1] = True
+        live, trim_after = keep_live, keep_trim
 
 
 def _to_contour(pieces: list[_Piece]) -> Contour:
@@ -272,10 +305,9 @@ def offset_contour(contour: Contour, distance_mm: float) -> Contour:
     if contour.is_circle:
         return _offset_circle(contour, d)
     raw = _raw_pieces(contour, d)
-    pieces = [p for p, _ in raw if p is not None]
-    if not pieces:
+    if all(p is None for p in raw):
         raise OffsetError("the contour collapses under this offset")
-    result = _to_contour(_assemble(pieces, d))
+    result = _to_contour(_assemble(raw, d))
     _check_simple(contour, result, d)
     return result
 

@@ -25,7 +25,8 @@ from .yamlsource import LineMap, format_path
 __all__ = [
     "Spec", "Field", "Number", "Integer", "Text", "Flag", "Point", "NumberList", "PointList",
     "NumberOrList", "Record", "ListOf", "Choice", "Tagged", "AnyOf", "Raw", "RefTable",
-    "DESIGN", "PLATE", "OUTLINE", "FEATURE_TYPES", "FIT_CLASSES", "Validated",
+    "DESIGN", "PLATE", "OUTLINE", "LABEL", "MACHINE", "FEATURE_TYPES", "FIT_CLASSES",
+    "DEFAULT_LABEL_HEIGHT_MM", "Validated",
     "validate_design", "describe_schema", "allowed_keys", "unit_of", "suggest",
 ]
 
@@ -517,9 +518,12 @@ OUTLINE = Choice({
         "corner_radius_mm": _RADIUS}),
 })
 
+#: Text height of an engraved label when the design does not give one (mm).
+DEFAULT_LABEL_HEIGHT_MM = 3.0
 LABEL = AnyOf(Flag(), Record("engraved label", {
     "at_mm": Field(Point(_MM), "text centre [x, y] (default: near the lower edge)"),
-    "height_mm": Field(Number(gt=0.0, le=100.0), "text height", default=3.0),
+    "height_mm": Field(Number(gt=0.0, le=100.0), "text height",
+                       default=DEFAULT_LABEL_HEIGHT_MM),
     "rotation_deg": Field(_ANGLE, "text rotation", default=0.0),
     "text": Field(Text(), "text (default: name, part number, material, kerf)"),
 }))

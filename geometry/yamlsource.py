@@ -76,12 +76,31 @@ class SourceTree:
     lines: LineMap
 
 
+#: Most values a design may expand to (guards against alias bombs: ``&a [*b, *b, ...]``).
+MAX_NODES = 200_000
+_MAP_TAG = "tag:yaml.org,2002:map"
+_SEQ_TAG = "tag:yaml.org,2002:seq"
+
+
+class _TooLarge(Exception):
+    pass
+
+
 def _construct(node: yaml.Node, loader: yaml.SafeLoader, parts: list[PathPart],
-               lines: dict[str, int], problems: list[Problem]) -> Any:
+               lines: dict[str, int], problems: list[Problem], count: list[int]) -> Any:
+    count[0] += 1
+    if count[0] > MAX_NODES:
+        raise _TooLarge
+    if isinstance(node, (yaml.MappingNode, yaml.SequenceNode)) and node.tag not in (
+        _MAP_TAG, _SEQ_TAG
+    ):
+        problems.append(Problem(format_path(parts), f"the tag '{node.tag}' is not allowed",
+                                node.start_mark.line + 1, "write plain YAML values"))
+        return None
     if isinstance(node, yaml.MappingNode):
         out: dict[Any, Any] = {}
         for key_node, value_node in node.value:
-            key = _construct(key_node, loader, parts, lines, problems)
+            key = _construct(key_node, loader, parts, lines, problems, count)
             line = key_node.start_mark.line + 1
             if isinstance(key, (dict, list)):
                 problems.append(Problem(format_path(parts), "a mapping key must be a plain word",
@@ -95,18 +114,20 @@ def _construct(node: yaml.Node, loader: yaml.SafeLoader, parts: list[PathPart],
                                         "each key may appear once in a mapping"))
                 continue
             lines[path] = line
-            out[key] = _construct(value_node, loader, [*parts, key], lines, problems)
+            out[key] = _construct(value_node, loader, [*parts, key], lines, problems,
+                                  count)
         return out
     if isinstance(node, yaml.SequenceNode):
         items = []
         for i, item in enumerate(node.value):
             lines[format_path([*parts, i])] = item.start_mark.line + 1
-            items.append(_construct(item, loader, [*parts, i], lines, problems))
+            items.append(_construct(item, loader, [*parts, i], lines, problems, count))
         return items
     try:
         return loader.construct_object(node, deep=True)
     except yaml.YAMLError as exc:  # e.g. a malformed timestamp or an unknown tag
-        problems.append(Problem(format_path(parts), f"cannot read value: {exc}",
+        text = getattr(exc, "problem", None) or str(exc).splitlines()[0]
+        problems.append(Problem(format_path(parts), f"cannot read value: {text}",
                                 node.start_mark.line + 1))
         return None
 
@@ -132,7 +153,11 @@ def parse_yaml(text: str, source: str = "") -> SourceTree:
     lines: dict[str, int] = {}
     problems: list[Problem] = []
     try:
-        data = None if node is None else _construct(node, loader, [], lines, problems)
+        data = None if node is None else _construct(node, loader, [], lines, problems, [0])
+    except _TooLarge:
+        raise DesignError(Problem("", f"the design expands to more than {MAX_NODES} values",
+                                  None, "aliases (*name) may not multiply the file"),
+                          source) from None
     finally:
         loader.dispose()
     if problems:
