@@ -49,8 +49,8 @@ class _Piece:
     """One offset segment.
 
     Line: ``origin`` (2,) mm, unit direction ``u`` (2,), parameters ``s0 < s1`` (mm along ``u``).
-    Arc: ``center`` (2,) mm, ``radius`` mm, start angle ``a0`` and signed ``sweep`` (radians).
-    ``vertex`` is the original vertex at the piece's start (centre of an inserted corner arc).
+    Arc: ``center`` (2,) mm, ``radius`` mm, start angle ``a0`` and signed ``sweep`` (radians);
+    ``sweep_sign`` keeps the original direction so a piece eaten by trimming can be detected.
     """
 
     is_arc: bool

@@ -47,7 +47,8 @@ def plate_region(plate: Plate, chord_tol_mm: float = CHORD_TOL_MM) -> shapely.Po
     material = shapely.union_all(solids)
     if holes:
         material = shapely.difference(material, shapely.union_all(holes))
-    material = shapely.make_valid(material) if not shapely.is_valid(material) else material
+    if not shapely.is_valid(material):
+        material = shapely.make_valid(material)
     if isinstance(material, shapely.Polygon) and not material.is_empty:
         return orient(material, 1.0)
     pieces = len(getattr(material, "geoms", []))

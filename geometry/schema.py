@@ -313,7 +313,8 @@ class ListOf(Spec):
         if seq is None:
             return BAD
         if len(seq) < self.min_len:
-            return ctx.fail(path, f"needs at least {self.min_len} entries")
+            return ctx.fail(path, f"needs at least {self.min_len} "
+                            f"{'entry' if self.min_len == 1 else 'entries'}")
         out = [self.item.check(v, ctx, format_path([path, i])) for i, v in enumerate(seq)]
         if self.unique:
             seen: dict[Any, int] = {}
@@ -678,7 +679,7 @@ def _table(rec: Record, lines: list[str], nested: list[tuple[str, Record]], pref
         sub = spec.mapping if isinstance(spec, AnyOf) else spec
         sub = sub.item if isinstance(sub, ListOf) else sub
         if isinstance(sub, Record) and sub is not rec:
-            nested.append((f"{prefix}{name}", sub))
+            nested.append((f"{prefix}{name}{'[]' if isinstance(spec, ListOf) else ''}", sub))
     lines.append("")
 
 
@@ -705,12 +706,17 @@ def describe_schema() -> str:
                     "Write exactly one of these keys under `outline:`.", ""]
             for k, var in OUTLINE.variants.items():
                 out += [f"### `{k}`: {var.title}", ""]
-                _table(var, out, [], "")
+                _table(var, out, [], f"plates[].outline.{k}.")
             out += ["## feature types (`plates[].features[]`)", "",
                     "Every feature has `id`, `type` and `at_mm`; the other fields depend on "
                     "`type`.", ""]
             for k, var in FEATURE_TYPES.items():
                 out += [f"### `type: {k}`: {var.title}", ""]
-                _table(var, out, nested, f"features[].{k}.")
+                _table(var, out, nested, f"plates[].features[] ({k}).")
                 queue += nested
+    out += ["## overrides", "",
+            "`--set PATH=VALUE` changes one field before validation, e.g. "
+            "`references.wheelbase_mm=180`, `plates[1].thickness_mm=4`, "
+            "`plates.deck.features.left_bore.diameter_mm=8.1` (plates by `name`, features by "
+            "`id`). The value is read as YAML. New references must be added in the file.", ""]
     return "\n".join(out).rstrip() + "\n"

@@ -154,3 +154,47 @@ def test_starter_designs_have_sensible_edge_distances_and_webs(stem):
         for i, (ida, pa) in enumerate(holes):
             for idb, pb in holes[i + 1:]:
                 assert pa.distance(pb) >= t - 1e-6, (plate.name, ida, idb)
+
+
+def test_every_feature_type_builds_where_the_file_puts_it():
+    text = """\
+name: all types
+material: cast_acrylic
+thickness_mm: 3
+plates:
+  - name: p
+    outline: {rounded_rect: {width_mm: 300, height_mm: 200, corner_radius_mm: 10}}
+    features:
+      - {id: h, type: hole, at_mm: [-120, 80], diameter_mm: 5, fit_allowance_mm: 0.1}
+      - {id: b, type: bore, at_mm: [-80, 60], diameter_mm: 22, fit: press}
+      - {id: sb, type: slotted_bore, at_mm: [-20, 60], diameter_mm: 8, fit: slide,
+         travel_mm: 6, direction_deg: 90}
+      - {id: s, type: slot, at_mm: [40, 70], length_mm: 30, width_mm: 5, angle_deg: 0}
+      - {id: c, type: cutout, at_mm: [100, 60], width_mm: 30, height_mm: 12}
+      - {id: f, type: fastener, at_mm: [-120, -80], screw: M4, series: fine}
+      - {id: g, type: fastener_array, at_mm: [-60, -60], screw: M3, rows: 1, cols: 2,
+         pitch_mm: [20, 0], centered: false}
+      - {id: m, type: motor_mount, at_mm: [60, -40], motor: nema17}
+      - {id: k, type: custom_mount, at_mm: [-10, -40], angle_deg: 90, pilot_diameter_mm: 10,
+         holes: [{at_mm: [15, 0], diameter_mm: 3}]}
+"""
+    plate = build_plates(load_design_text(text))[0]
+    assert plate.feature("h").dims["nominal_diameter_mm"] == 5.0
+    assert plate.feature("h").fit_allowance_mm == 0.1
+    assert plate.feature("b").kind == "bore" and plate.feature("b").fit_class == "press"
+    assert plate.feature("sb").dims["length_mm"] == pytest.approx(8 + 6)  # width + travel
+    # ISO 273 fine series, M4: 4.3 mm (REFERENCE.md table)
+    assert plate.feature("f").dims["nominal_diameter_mm"] == pytest.approx(4.3)
+    # not centred: the first hole at at_mm, the next one pitch_x further along x
+    assert plate.feature("g.hole1").center_mm == pytest.approx((-60, -60))
+    assert plate.feature("g.hole2").center_mm == pytest.approx((-40, -60))
+    # NEMA 17 holes on a 31.0 mm square (NEMA ICS 16, REFERENCE.md): +-15.5 mm from the shaft
+    mount = [f for f in plate.features if f.id.startswith("m.") and f.kind == "mount_hole"]
+    assert sorted((round(f.center_mm[0] - 60, 6), round(f.center_mm[1] + 40, 6))
+                  for f in mount) == [(-15.5, -15.5), (-15.5, 15.5), (15.5, -15.5), (15.5, 15.5)]
+    # custom hole (15, 0) turned 90 degrees counter-clockwise: (0, 15) from the centre
+    hole = next(f for f in plate.features if f.id.startswith("k.") and f.kind == "mount_hole")
+    assert hole.center_mm == pytest.approx((-10, -25))
+    assert any(f.id.startswith("k.") and f.kind == "pilot" for f in plate.features)
+    for f in plate.features:
+        assert f.source_path.startswith("plates[0].features[") and f.source_line is not None

@@ -20,7 +20,6 @@ from geometry_cases import (
 )
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
 from platewright.geometry.curves import Contour
 from platewright.geometry.offset import OffsetError, offset_contour
 from platewright.geometry.region import to_polygon
@@ -199,18 +198,29 @@ def _check_against_buffer(c: Contour, d: float) -> None:
     # growing the material of an outline (ccw, d > 0) or shrinking a hole's material (cw, d < 0)
     # both enlarge the enclosed region; otherwise the region shrinks.
     grow = d if c.is_ccw() else -d
-    ref = base.buffer(grow, quad_segs=QUAD_SEGS, join_style="round")
-    assert abs(poly.area - ref.area) <= _buffer_area_bound(out, d)
+    # Definition of the offset of a convex region: every boundary point lies at distance |d|
+    # from the original boundary (outside it when growing, inside when shrinking). shapely's
+    # point-to-polygon distance is exact for the chord polygon, which lies within the chord
+    # tolerance of the exact curve.
+    pts = shapely.points(out.to_points(FINE_TOL_MM))
+    dist = shapely.distance(pts, base.exterior)
+    assert np.max(np.abs(dist - abs(d))) <= 2 * FINE_TOL_MM + 1e-9
+    assert np.all(shapely.contains(base, pts) == (grow < 0))
+    if grow > 0:
+        # shapely's round buffer of the chord polygon (a dilation: GEOS keeps every convex
+        # vertex of the input, so it is accurate to the buffer's own sagitta)
+        ref = base.buffer(grow, quad_segs=QUAD_SEGS, join_style="round")
+        assert abs(poly.area - ref.area) <= _buffer_area_bound(out, d)
     back = offset_contour(out, -d)
-    # grow-then-shrink of a convex region is the region itself; shrink-then-grow is shapely's
-    # opening of it.
-    expect = base if grow > 0 else ref.buffer(-grow, quad_segs=QUAD_SEGS, join_style="round")
+    # grow-then-shrink of a convex region is the region itself (closing); shrink-then-grow is
+    # the opening, i.e. the eroded region dilated again, here dilated by shapely.
+    expect = base if grow > 0 else poly.buffer(-grow, quad_segs=QUAD_SEGS, join_style="round")
     assert _hausdorff(back, expect) < 4 * FINE_TOL_MM + abs(d) * 1e-4
 
 
 @settings(max_examples=30, deadline=None)
-@given(w=st.floats(4, 60), h=st.floats(4, 60), rf=st.one_of(st.just(0.0), st.floats(0.02, 0.45)), d=_d, s=_sign,
-       hole=st.booleans())
+@given(w=st.floats(4, 60), h=st.floats(4, 60), rf=st.one_of(st.just(0.0), st.floats(0.02, 0.45)),
+       d=_d, s=_sign, hole=st.booleans())
 def test_random_rounded_rectangles(w, h, rf, d, s, hole) -> None:
     c = rounded_rectangle(w, h, rf * min(w, h))
     c = c.reversed() if hole else c
@@ -244,3 +254,50 @@ def test_random_convex_filleted_polygons(n, jitter, radii, d, s, hole) -> None:
     c = filleted_polygon(pts, radii[:n])
     c = c.reversed() if hole else c
     _check_against_buffer(c, s * d)
+
+
+def test_step_shorter_than_offset() -> None:
+    # A 0.05 mm step in the top edge, grown by 0.2 mm: the step's own offset is eaten by the
+    # concave join and the corner round about (10, 10.05) meets the lower top edge's offset
+    # y = 10.2 at x = 10 + sqrt(0.2^2 - 0.15^2) (circle-line intersection, worked by hand).
+    c = Contour([[0, 0], [20, 0], [20, 10], [10, 10], [10, 10.05], [0, 10.05]])
+    out = offset_contour(c, 0.2)
+    hit = np.array([10 + math.sqrt(0.2**2 - 0.15**2), 10.2])
+    assert np.min(np.hypot(*(out.vertices - hit).T)) < 1e-12
+    base = to_polygon(c, FINE_TOL_MM)
+    pts = shapely.points(out.to_points(FINE_TOL_MM))
+    # definition of a dilation: boundary points at distance 0.2 from the original
+    assert np.max(np.abs(shapely.distance(pts, base) - 0.2)) < 1e-9
+    ref = base.buffer(0.2, quad_segs=QUAD_SEGS, join_style="round")  # shapely reference
+    assert abs(to_polygon(out, FINE_TOL_MM).area - ref.area) < _buffer_area_bound(out, 0.2)
+
+
+def test_fillet_smaller_than_offset_becomes_sharp() -> None:
+    # A rounded-rectangle hole (fillet 0.3 mm) offset 0.5 mm toward its centre: the inward
+    # parallel of the hole region is the (w - 2d) x (h - 2d) rectangle with SHARP corners,
+    # because every point of it is >= 0.5 mm from the edge (closed form, worked by hand:
+    # the corner point is (0.5 - 0.3) sqrt(2) + 0.3 = 0.58 mm from the fillet).
+    w, h, d = 10.0, 6.0, 0.5
+    out = offset_contour(rounded_rectangle(w, h, 0.3).reversed(), d)
+    assert len(out) == 4 and np.all(out.bulges == 0.0)
+    assert out.signed_area() == pytest.approx(-(w - 2 * d) * (h - 2 * d), rel=1e-12)
+
+
+@pytest.mark.parametrize("d", [0.4, -0.4, 1.5, -1.5])
+def test_l_shaped_hole_against_definition(d: float) -> None:
+    # Holes of a non-convex shape, both ways. Every boundary point of an exact offset lies at
+    # distance |d| from the original boundary (definition of the parallel curve; shapely's
+    # point-polygon distance is exact on the chord polygon). Areas in closed form as in
+    # test_l_shape_concave_corner with the roles of convex and concave corners exchanged for
+    # the hole: growing the hole region by g = -d rounds its five convex corners.
+    hole = l_shape().reversed()
+    out = offset_contour(hole, d)
+    base = to_polygon(hole, FINE_TOL_MM)
+    pts = shapely.points(out.to_points(FINE_TOL_MM))
+    assert np.max(np.abs(shapely.distance(pts, base.exterior) - abs(d))) < 2 * FINE_TOL_MM
+    g = -d
+    if g > 0:
+        area = 64 + 40 * g + 5 * math.pi / 4 * g**2 - g**2
+    else:
+        area = 64 + 40 * g + 5 * g**2 - math.pi / 4 * g**2
+    assert -out.signed_area() == pytest.approx(area, rel=1e-12)
