@@ -21,7 +21,7 @@ def tool_version() -> str:
 
 
 def _r(x: float, nd: int = 6) -> float:
-    return float(round(float(x), nd))
+    return float(round(float(x), nd)) + 0.0  # no negative zero in the report
 
 
 def _feature_entry(row: Any) -> dict[str, Any]:

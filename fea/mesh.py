@@ -9,7 +9,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Mesh", "MeshQuality", "triangle_angles_deg", "triangle_areas_mm2"]
+__all__ = [
+    "Mesh",
+    "MeshQuality",
+    "triangle_angles_deg",
+    "triangle_areas_mm2",
+    "flip_to_delaunay",
+]
 
 
 @dataclass(frozen=True)
@@ -60,6 +66,71 @@ def triangle_angles_deg(nodes: np.ndarray, triangles: np.ndarray) -> np.ndarray:
     ang_b = np.arccos(cb)
     ang_c = np.pi - ang_a - ang_b
     return np.degrees(np.column_stack([ang_a, ang_b, ang_c]))
+
+
+def _incircle(a: np.ndarray, b: np.ndarray, c: np.ndarray, d: np.ndarray) -> np.ndarray:
+    """Positive when d lies inside the circle through counter-clockwise a, b, c: (m,) float.
+
+    Scaled by the fourth power of the largest distance to d, so the value is dimensionless.
+    """
+    ad, bd, cd = a - d, b - d, c - d
+    la = np.einsum("ij,ij->i", ad, ad)
+    lb = np.einsum("ij,ij->i", bd, bd)
+    lc = np.einsum("ij,ij->i", cd, cd)
+    det = (
+        la * (bd[:, 0] * cd[:, 1] - bd[:, 1] * cd[:, 0])
+        - lb * (ad[:, 0] * cd[:, 1] - ad[:, 1] * cd[:, 0])
+        + lc * (ad[:, 0] * bd[:, 1] - ad[:, 1] * bd[:, 0])
+    )
+    scale = np.maximum(np.maximum(la, lb), lc)
+    return det / (scale * scale)
+
+
+def flip_to_delaunay(
+    nodes: np.ndarray, triangles: np.ndarray, max_rounds: int = 200
+) -> np.ndarray:
+    """Flip interior edges until every one is locally Delaunay (Lawson's flip algorithm).
+
+    ``nodes``: (n, 2) float, mm; ``triangles``: (m, 3) int, counter-clockwise, all of positive
+    area. Edges with one triangle (the boundary) are never flipped, so the boundary is kept.
+    Each round flips, at once, a set of non-Delaunay edges that share no triangle (each chosen
+    edge is the most violating one of both its triangles). Reference: C. L. Lawson, "Software
+    for C1 surface interpolation", in Mathematical Software III (1977); an interior edge that
+    fails the in-circle test always bounds a convex quadrilateral, so the flip is valid.
+    Returns the new (m, 3) int counter-clockwise triangles.
+    """
+    tri = np.array(triangles, dtype=np.int64)
+    m = len(tri)
+    n = int(nodes.shape[0])
+    for _ in range(max_rounds):
+        # Half-edge j of triangle f runs tri[f, j] -> tri[f, j + 1]; opposite vertex tri[f, j + 2].
+        start = tri.ravel()
+        end = tri[:, [1, 2, 0]].ravel()
+        opp = tri[:, [2, 0, 1]].ravel()
+        key = np.minimum(start, end) * n + np.maximum(start, end)
+        order = np.argsort(key, kind="stable")
+        ks = key[order]
+        pair = np.flatnonzero(ks[1:] == ks[:-1])
+        h1 = order[pair]
+        h2 = order[pair + 1]
+        a, b, c, d = start[h1], end[h1], opp[h1], opp[h2]
+        score = _incircle(nodes[a], nodes[b], nodes[c], nodes[d])
+        cand = score > 1e-9
+        if not cand.any():
+            return tri
+        h1, h2, a, b, c, d, score = (v[cand] for v in (h1, h2, a, b, c, d, score))
+        f1, f2 = h1 // 3, h2 // 3
+        # Unique priorities: the score, ties broken by position.
+        prio = np.argsort(np.argsort(score, kind="stable"), kind="stable").astype(np.int64)
+        best = np.full(m, -1, dtype=np.int64)
+        np.maximum.at(best, f1, prio)
+        np.maximum.at(best, f2, prio)
+        go = (best[f1] == prio) & (best[f2] == prio)
+        f1, f2, a, b, c, d = f1[go], f2[go], a[go], b[go], c[go], d[go]
+        # Quadrilateral a, d, b, c is convex and counter-clockwise; new diagonal c-d.
+        tri[f1] = np.column_stack([a, d, c])
+        tri[f2] = np.column_stack([d, b, c])
+    raise RuntimeError(f"edge flipping did not finish in {max_rounds} rounds")
 
 
 @dataclass(frozen=True)

@@ -31,7 +31,7 @@ import numpy as np
 import shapely
 from scipy.spatial import Delaunay, cKDTree
 
-from .mesh import Mesh, triangle_areas_mm2
+from .mesh import Mesh, flip_to_delaunay, triangle_areas_mm2
 from .sizing import SizeField, boundary_size_field, graded_lattice
 
 __all__ = ["TaggedRing", "mesh_rings", "mesh_polygon", "default_size_mm"]
@@ -281,18 +281,36 @@ def _unique_bars(tri: np.ndarray) -> np.ndarray:
     return np.column_stack([key // n, key % n])
 
 
+def _untangle(p: np.ndarray, p_ok: np.ndarray, tri: np.ndarray) -> np.ndarray:
+    """Move the corners of inverted triangles back to their last valid positions."""
+    for _ in range(50):
+        bad = triangle_areas_mm2(p, tri) <= 0.0
+        if not bad.any():
+            return p
+        back = np.unique(tri[bad])
+        p[back] = p_ok[back]
+    return p_ok.copy()
+
+
 def _smooth(work: _Work, reg: _Region, field: SizeField) -> np.ndarray:
-    """distmesh truss-force smoothing of the interior nodes; returns the inside triangles."""
+    """distmesh truss-force smoothing of the interior nodes; returns the inside triangles.
+
+    The first triangulation comes from Qhull with boundary recovery; after that the connectivity
+    is made Delaunay again by edge flips (:func:`.mesh.flip_to_delaunay`) whenever nodes have
+    moved ``_RETRI_TOL`` local sizes, which keeps every boundary edge in place.
+    """
     poly = reg.polygon
     tri = _inside_triangles(work.nodes, work.recover(field), poly)
+    nb = len(work.bnodes)
+    p = work.nodes
+    if len(work.inner) == 0:
+        return tri
+    btree = cKDTree(_dense_boundary(work.bnodes, work.segs))
     iters = 0
-    while iters < _SMOOTH_ITERS and len(work.inner):
-        p = work.nodes
-        nb = len(work.bnodes)
+    while iters < _SMOOTH_ITERS:
         h = field(p)
         bars = _unique_bars(tri)
         p_tri = p.copy()
-        btree = cKDTree(_dense_boundary(work.bnodes, work.segs))
         db, _ = btree.query(p[nb:])
         near = np.flatnonzero(db < 1.5 * h[nb:]) + nb
         settled = False
@@ -326,10 +344,11 @@ def _smooth(work: _Work, reg: _Region, field: SizeField) -> np.ndarray:
                 break
             if (np.hypot(*(p - p_tri).T) / h).max() > _RETRI_TOL:
                 break
-        work.inner = p[nb:]
-        tri = _inside_triangles(work.nodes, work.recover(field), poly)
+        p = _untangle(p, p_tri, tri)
+        tri = flip_to_delaunay(p, tri)
         if settled:
             break
+    work.inner = p[nb:]
     return tri
 
 

@@ -190,7 +190,11 @@ def _solve_amg(
     import pyamg
 
     ml = pyamg.smoothed_aggregation_solver(
-        a, B=np.ascontiguousarray(near_null), symmetry="hermitian", max_coarse=500
+        a,
+        B=np.ascontiguousarray(near_null),
+        symmetry="hermitian",
+        max_coarse=500,
+        coarse_solver="splu",
     )
     norm_b = np.linalg.norm(b)
     norm_a = float(abs(a).sum(axis=0).max())  # 1-norm

@@ -19,6 +19,7 @@ from shapely.geometry import Polygon
 
 from . import features as fb
 from . import library, outlines
+from .curves import Contour
 from .design import Design, FeatureSpec, OutlineSpec, PlateSpec
 from .errors import DesignError, Problem
 from .model import Engraving, Feature, Plate
@@ -123,7 +124,7 @@ def _problem(exc: Exception, path: str, design: Design, params: dict) -> Problem
     return Problem(path, text, design.line_of(path))
 
 
-def _polygon(contour) -> Polygon:
+def _polygon(contour: Contour) -> Polygon:
     return Polygon(contour.to_points(CHORD_TOL_MM))
 
 
@@ -140,11 +141,12 @@ def _size_mm(f: Feature) -> tuple[str, float] | None:
 def _check(design: Design, plate: Plate, spec: PlateSpec, problems: list[Problem]) -> None:
     outline = _polygon(plate.outline.contours[0])
     ox0, oy0, ox1, oy1 = outline.bounds
-    seen: dict[str, Feature] = {OUTLINE_ID: plate.outline, LABEL_ID: plate.outline}
+    seen: dict[str, Feature | None] = {OUTLINE_ID: None, LABEL_ID: None}
     for f in plate.features:
         where = f.source_path
         if f.id in seen:
-            other = seen[f.id].source_path or "a reserved id"
+            prev = seen[f.id]
+            other = prev.source_path if prev is not None else "a reserved id"
             problems.append(Problem(f"{where}.id", f"duplicate feature id '{f.id}' (also "
                                     f"{other})", f.source_line, "every feature id must be "
                                     "unique on the plate ('outline' and 'label' are reserved)"))

@@ -156,8 +156,9 @@ class _Resolver:
             self.fail(path, f"material '{key}' ({mat.name}) must never be laser-cut: "
                       f"{mat.refusal_reason}", "choose another material")
             return None
-        if mat.warning and mat.warning not in self.warnings:
-            self.warnings.append(f"{mat.name}: {mat.warning}")
+        caution = f"{mat.name}: {mat.warning}"
+        if mat.warning and caution not in self.warnings:
+            self.warnings.append(caution)
         return mat
 
     def machine(self, value: Any, path: str) -> MachineProfile | None:

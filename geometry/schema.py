@@ -12,6 +12,7 @@ To add a section later, add a :class:`Field` to ``DESIGN`` (or a variant to ``FE
 
 from __future__ import annotations
 
+import copy
 import difflib
 import re
 from collections.abc import Callable, Mapping, Sequence
@@ -280,7 +281,7 @@ class Record(Spec):
                 if f.required:
                     ok = False
                     ctx.fail(sub, f"missing required field '{name}'", f.doc)
-                out[name] = f.default
+                out[name] = copy.copy(f.default)  # never share a mutable default
                 continue
             v = f.spec.check(value[name], ctx, sub)
             ok = ok and v is not BAD
