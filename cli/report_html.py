@@ -121,6 +121,8 @@ def render_report(report: dict[str, Any], svgs: dict[str, str],
     extra = extra or {}
     d = report["design"]
     cautions = "".join(f"<li>{_e(s)}</li>" for s in SAFETY_NOTES)
+    cautions += "".join(f"<li><strong>Material:</strong> {_e(s)}</li>"
+                        for s in report.get("material_cautions", []))
     summary_rows = [[_e(p["name"]), _e(p["material"]), _num(p["thickness_mm"], 1), _num(p["kerf_mm"], 2),
                      _num(p["mass_g"], 2), str(p["quantity"]),
                      f"{p['bbox_mm'][2] - p['bbox_mm'][0]:.1f} × {p['bbox_mm'][3] - p['bbox_mm'][1]:.1f}",

@@ -76,6 +76,7 @@ def build_report(result: BuildResult, files: dict[str, dict[str, str]]) -> dict[
         "units": {"length": "mm", "mass": "g", "force": "N", "stress": "MPa"},
         "machine": {"key": d.machine.key, "name": d.machine.name,
                     "bed_mm": [_r(v) for v in d.machine.bed_mm]},
+        "material_cautions": list(d.warnings),
         "total_mass_g": _r(t.mass_g),
         "total_inertia_g_mm2": {k: _r(v, 3) for k, v in t.inertia_g_mm2.items()},
         "plates": [plate_entry(b, files.get(b.plate.name, {})) for b in result.plates],

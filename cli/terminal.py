@@ -41,6 +41,7 @@ def build_summary(report: dict[str, Any], outdir: str) -> str:
     for p in report["plates"]:
         for f in p["findings"]:
             lines.append(f"  {f['level']}: {p['name']}: {f['rule']}: {f['message']}")
+    lines.extend(f"  caution: {c}" for c in report.get("material_cautions", []))
     lines.append(f"written to {outdir} (report.html, report.json, plates/)")
     lines.append("Cut safely: fume extraction on, never unattended, no chlorine-bearing plastics.")
     return "\n".join(lines)

@@ -16,10 +16,11 @@ from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
 import numpy as np
+from scipy.spatial import cKDTree
+
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.mass import mass_properties
 from platewright.geometry.model import Material, Plate
-from scipy.spatial import cKDTree
 
 from . import bending as dkt
 from . import membrane

@@ -21,6 +21,7 @@ from typing import Any
 
 import numpy as np
 import shapely
+
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.expressions import ExpressionError, evaluate
 from platewright.geometry.model import Feature, Plate
@@ -409,9 +410,10 @@ class _Reader:
     def number(self, value: Any, path: str, spec: _Spec) -> float | None:
         m = _NUMBER_WITH_UNIT.match(value) if isinstance(value, str) else None
         if m and m.group(2) not in self.refs:
-            self.fail(path, f"'{value}' is not a number: write the value in "
-                      f"{spec.unit or 'the unit of the field'} without a unit (the unit is in "
-                      "the field name)", _unit_hint(float(m.group(1)), m.group(2), spec.unit))
+            msg = (f"'{value}' is not a number: write the value in {spec.unit} without a unit "
+                   "(the unit is in the field name)") if spec.unit else (
+                f"'{value}' is not a number: this field takes a plain number without a unit")
+            self.fail(path, msg, _unit_hint(float(m.group(1)), m.group(2), spec.unit))
             return None
         try:
             v = evaluate(value, self.refs).value
@@ -595,11 +597,13 @@ def _unit(v: tuple[float, ...] | None, rd: _Reader, path: str) -> tuple[float, f
     return (v[0] / n, v[1] / n)
 
 
-def _read_case(rd: _Reader, raw: Any, path: str) -> LoadCase | None:
+def _read_case(rd: _Reader, raw: Any, path: str) -> tuple[LoadCase | None, bool]:
+    """The case (None when its core fields are bad) and whether it was read without problems;
+    a case with bad parts is still returned so its other fields can be checked."""
     before = len(rd.problems)
     d, _ = rd.record(raw, _CASE, path, "load case")
     if not d:
-        return None
+        return None, False
     supports = [_read_support(rd, s, f"{path}.supports[{j}]")
                 for j, s in enumerate(d.get("supports") or [])]
     if d.get("supports") == []:
@@ -617,14 +621,16 @@ def _read_case(rd: _Reader, raw: Any, path: str) -> LoadCase | None:
         m, ok = rd.record(d["limits"], _LIMITS, f"{path}.limits", "limits")
         lim = Limits(**m) if ok else lim
     g_dir = _unit(d.get("g_direction"), rd, f"{path}.g_direction")
-    if len(rd.problems) != before:
-        return None
+    if any(d.get(k) is None for k in ("name", "plate", "family", "g_factor")) or (
+            d.get("supports") is None):
+        return None, False
     self_weight = d["self_weight"]
     if self_weight is None:
         self_weight = d["family"] == "bending" or g_dir is not None
-    return LoadCase(d["name"], d["plate"], d["family"], float(d["g_factor"]), bool(self_weight),
+    case = LoadCase(d["name"], d["plate"], d["family"], float(d["g_factor"]), bool(self_weight),
                     g_dir, tuple(s for s in supports if s), tuple(x for x in loads if x), coll,
                     lim, d["mesh_size_mm"], d["grain_deg"], path)
+    return case, len(rd.problems) == before
 
 
 # --------------------------------------------------------------------------------- checking
@@ -712,7 +718,8 @@ def _check_component(rd: _Reader, c: Component) -> bool:
     return len(rd.problems) == before
 
 
-def _check_family(rd: _Reader, case: LoadCase, comps: Mapping[str, Component]) -> None:
+def _check_family(rd: _Reader, case: LoadCase, comps: Mapping[str, Component], clean: bool
+                  ) -> None:
     bending = case.family == "bending"
     for ld in case.loads:
         fx, fy, fz = ld.force_n
@@ -745,14 +752,15 @@ def _check_family(rd: _Reader, case: LoadCase, comps: Mapping[str, Component]) -
     if not bending and weights and case.g_direction is None:
         rd.fail(f"{case.path}.g_direction", "an in_plane case with weights needs g_direction",
                 "e.g. g_direction: [1, 0]; or self_weight: false and no component loads")
-    if not case.loads and not case.self_weight and case.collision is None:
+    if clean and not case.loads and not case.self_weight and case.collision is None:
         rd.fail(case.path, f"nothing loads case '{case.name}'",
                 "add loads, self_weight: true or a collision")
 
 
-def _check_case(rd: _Reader, case: LoadCase, comps: Mapping[str, Component]) -> bool:
+def _check_case(rd: _Reader, case: LoadCase, comps: Mapping[str, Component], clean: bool = True
+                ) -> bool:
     before = len(rd.problems)
-    _check_family(rd, case, comps)
+    _check_family(rd, case, comps, clean)
     if rd.plates is None:
         return len(rd.problems) == before
     plate = rd.plates.get(case.plate)
@@ -811,13 +819,13 @@ def parse_loads(design: Any, plates: Sequence[Plate] | None = None) -> LoadInput
             comps[comp.id] = comp
     cases: list[LoadCase] = []
     for i, raw in enumerate(getattr(design, "load_cases", ()) or ()):
-        case = _read_case(rd, raw, f"load_cases[{i}]")
+        case, clean = _read_case(rd, raw, f"load_cases[{i}]")
         if case is None:
             continue
         if any(c.name == case.name for c in cases):
             rd.fail(f"{case.path}.name", f"duplicate load case name '{case.name}'",
                     "names must differ")
-        elif _check_case(rd, case, comps):
+        elif _check_case(rd, case, comps, clean) and clean:
             cases.append(case)
     if rd.problems:
         raise DesignError(rd.problems, getattr(design, "source_path", ""))

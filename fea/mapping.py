@@ -23,6 +23,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
+
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.model import Plate
 

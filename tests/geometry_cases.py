@@ -8,6 +8,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+
 from platewright.geometry.curves import Contour, circle
 
 __all__ = [

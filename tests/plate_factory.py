@@ -14,6 +14,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+
 from platewright.geometry.curves import Contour, circle
 from platewright.geometry.model import CutContour, Engraving, Feature, Material, Plate
 

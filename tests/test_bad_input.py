@@ -8,6 +8,7 @@ hydrogen chloride, toxic and corrosive to the machine).
 from __future__ import annotations
 
 import pytest
+
 from platewright.geometry.build import build_plates
 from platewright.geometry.design import load_design, load_design_text
 from platewright.geometry.errors import DesignError

@@ -12,6 +12,7 @@ import math
 import pytest
 import shapely
 from geometry_cases import circle, rectangle, stadium
+
 from platewright.geometry.cutpaths import cut_paths, part_contours
 from platewright.geometry.errors import DesignError
 from platewright.geometry.model import Feature, Material, Plate

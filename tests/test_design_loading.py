@@ -16,6 +16,7 @@ import pytest
 import yaml
 from hypothesis import given, settings
 from hypothesis import strategies as st
+
 from platewright.geometry import schema
 from platewright.geometry.build import bundled_example_path, list_templates, plate_kerf_mm
 from platewright.geometry.design import load_design, load_design_text

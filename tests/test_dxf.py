@@ -20,6 +20,7 @@ from plate_factory import (
     round_hole,
     slot_feature,
 )
+
 from platewright.geometry.curves import Contour
 from platewright.geometry.cutpaths import cut_paths
 from platewright.geometry.dxf_writer import (

@@ -8,6 +8,8 @@ import numpy as np
 import pytest
 from hypothesis import example, given, settings
 from hypothesis import strategies as st
+from shapely.geometry import Polygon
+
 from platewright.geometry.features import (
     bore,
     custom_mount,
@@ -21,7 +23,6 @@ from platewright.geometry.features import (
 )
 from platewright.geometry.library import get_material, get_motor
 from platewright.geometry.outlines import polygon_outline, rounded_rect_outline
-from shapely.geometry import Polygon
 
 ACRYLIC = get_material("cast_acrylic")
 

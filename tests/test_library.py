@@ -6,6 +6,7 @@ import math
 from itertools import combinations
 
 import pytest
+
 from platewright.geometry.features import motor_mount
 from platewright.geometry.library import (
     MachineProfile,

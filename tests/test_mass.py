@@ -17,6 +17,7 @@ import pytest
 import shapely
 import trimesh
 from geometry_cases import circle, rectangle, rounded_rectangle
+
 from platewright.geometry.curves import Contour
 from platewright.geometry.mass import combine, contour_moments, mass_properties
 from platewright.geometry.model import Feature, Material, Plate

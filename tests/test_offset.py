@@ -20,6 +20,7 @@ from geometry_cases import (
 )
 from hypothesis import given, settings
 from hypothesis import strategies as st
+
 from platewright.geometry.curves import Contour
 from platewright.geometry.offset import OffsetError, offset_contour
 from platewright.geometry.region import to_polygon

@@ -16,6 +16,7 @@ from plate_factory import (
     round_hole,
     slot_feature,
 )
+
 from platewright.geometry.curves import circle
 from platewright.geometry.model import Feature
 from platewright.geometry.rules import RULE_NAMES, check_plate, has_errors

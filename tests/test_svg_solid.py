@@ -10,6 +10,7 @@ import numpy as np
 import pytest
 import trimesh
 from plate_factory import make_plate, rect_contour, round_hole, rounded_rect_contour, slot_feature
+
 from platewright.geometry.cutpaths import cut_paths
 from platewright.geometry.model import Engraving
 from platewright.geometry.solid_writer import plate_solid, write_plate_glb, write_plate_stl
