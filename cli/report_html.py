@@ -23,7 +23,8 @@ td,th{border:1px solid #c9d3dc;padding:.25rem .55rem;text-align:right}
 th{background:#eef2f5} td.l,th.l{text-align:left}
 .caution{background:#fff6e0;border-left:6px solid #d98c00;padding:.6rem 1rem;margin:1rem 0}
 .drawing{border:1px solid #c9d3dc;background:#fbfcfd;padding:.5rem;overflow:auto}
-.drawing svg{max-width:100%;height:auto;max-height:32rem}
+.drawing svg{max-width:100%;height:auto;max-height:32rem;display:block;margin:auto}
+.drawing svg circle,.drawing svg path{vector-effect:non-scaling-stroke;stroke-width:1.5px}
 .error{color:#a4161a;font-weight:600} .warning{color:#8a5a00} .ok{color:#1b6b3a}
 .meta{color:#56616b;font-size:.9rem} img.plot{max-width:48%;border:1px solid #c9d3dc;margin:.3rem}
 """
@@ -41,11 +42,15 @@ def _num(x: object, nd: int = 3) -> str:
     return _e(x)
 
 
+_TEXT_HEADERS = {"note", "message"}
+
+
 def _table(headers: Sequence[str], rows: Sequence[Sequence[str]], left: int = 1) -> str:
-    head = "".join(f'<th class="{"l" if i < left else ""}">{_e(h)}</th>' for i, h in enumerate(headers))
+    """An HTML table; the first ``left`` columns and any note/message column are left-aligned."""
+    cls = ['l' if i < left or h in _TEXT_HEADERS else '' for i, h in enumerate(headers)]
+    head = "".join(f'<th class="{c}">{_e(h)}</th>' for c, h in zip(cls, headers))
     body = "".join(
-        "<tr>" + "".join(f'<td class="{"l" if i < left else ""}">{c}</td>' for i, c in enumerate(r))
-        + "</tr>"
+        "<tr>" + "".join(f'<td class="{c}">{v}</td>' for c, v in zip(cls, r)) + "</tr>"
         for r in rows
     )
     return f"<table><tr>{head}</tr>{body}</table>"
