@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import shutil
+import sys
 from pathlib import Path
 
 from platewright.geometry.build import bundled_example_path, list_templates
@@ -92,14 +93,70 @@ class BuildCommand(DesignCommand):
         return 0
 
 
+class CheckCommand(DesignCommand):
+    name = "check"
+    help = ("build, then estimate deflection, stress and safety factor of every plate under every "
+            "load case (finite elements), against the design's limits")
+
+    def add_arguments(self, parser: argparse.ArgumentParser) -> None:
+        super().add_arguments(parser)
+        parser.add_argument("--mesh-size-mm", type=float, metavar="MM",
+                            help="element size for every case (default: each case's mesh_size_mm, "
+                                 "else from the plate size)")
+        parser.add_argument("--solver", choices=["auto", "direct", "amg"], default="auto",
+                            help="linear solver (default auto: direct when small, multigrid when large)")
+        parser.add_argument("--vtu", action="store_true",
+                            help="also write mesh and fields as VTU files (fields/) for other viewers")
+
+    def run(self, args: argparse.Namespace) -> int:
+        from platewright.fea.analysis import analyse_design
+        from platewright.fea.loadcases import parse_loads
+        from platewright.fea.vtu import write_vtu
+
+        from .report_fea import fea_summary
+
+        _, design, outdir = self.load(args)
+        if args.mesh_size_mm is not None and not args.mesh_size_mm > 0:
+            raise DesignError(Problem("--mesh-size-mm", f"must be > 0, got {args.mesh_size_mm}"))
+        result = build_design(design)
+        self.refuse_on_rule_errors(result)
+        plates = [b.plate for b in result.plates]
+        loads = parse_loads(design, plates)
+        if not loads.cases:
+            raise DesignError(Problem("load_cases", "the design has no load cases to check",
+                                      hint="add load_cases (see `platewright fields`)"),
+                              source=str(design.source_path))
+
+        def progress(text: str) -> None:
+            if not args.quiet:
+                print(f"  solving {text}", file=sys.stderr, flush=True)
+
+        analyses = analyse_design(design, plates, size_mm=args.mesh_size_mm, method=args.solver,
+                                  progress=progress, loads=loads)
+        with staged_output(outdir) as tmp:
+            report = write_build(result, tmp, analyses)
+            if args.vtu:
+                (tmp / "fields").mkdir()
+                for a in analyses:
+                    for case in a.cases:
+                        write_vtu(case, tmp / "fields" / f"{a.plate}__{case.name}.vtu")
+        if not args.quiet:
+            print(build_summary(report, str(outdir)))
+            print(fea_summary(analyses))
+        return 0 if all(a.passes for a in analyses) else 1
+
+
 class FieldsCommand(Command):
     name = "fields"
     help = "print the design-file reference: every field with its unit, default and meaning"
 
     def run(self, args: argparse.Namespace) -> int:
+        from platewright.fea.loadcases import describe_load_cases
         from platewright.geometry.schema import describe_schema
 
         print(describe_schema())
+        print()
+        print(describe_load_cases())
         return 0
 
 
@@ -146,5 +203,7 @@ class MaterialsCommand(Command):
         return 0
 
 
-COMMANDS: list[Command] = [BuildCommand(), FieldsCommand(), StartersCommand(), MaterialsCommand()]
+COMMANDS: list[Command] = [
+    BuildCommand(), CheckCommand(), FieldsCommand(), StartersCommand(), MaterialsCommand(),
+]
 

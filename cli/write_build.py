@@ -4,14 +4,17 @@ from __future__ import annotations
 
 import json
 import re
+from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
+from platewright.fea.results import PlateAnalysis
 from platewright.geometry.dxf_writer import write_plate_dxf
 from platewright.geometry.pipeline import BuildResult
 from platewright.geometry.solid_writer import write_plate_glb, write_plate_stl
 from platewright.geometry.svg_writer import plate_svg_string
 
+from .report_fea import fea_html, write_plots
 from .report_html import render_report
 from .report_json import build_report
 
@@ -24,9 +27,10 @@ def safe_name(name: str) -> str:
 
 
 def write_build(result: BuildResult, folder: Path,
-                extra_html: dict[str, str] | None = None) -> dict[str, Any]:
+                analyses: Sequence[PlateAnalysis] = ()) -> dict[str, Any]:
     """Write every plate's DXF, SVG, STL and GLB under ``folder/plates`` plus report.json and
-    report.html in ``folder``; returns the report dictionary."""
+    report.html in ``folder``; with ``analyses`` (from fea) also the ``fea`` section of each
+    analysed plate and its contour plots under ``folder/plots``. Returns the report dictionary."""
     plates_dir = folder / "plates"
     plates_dir.mkdir(parents=True, exist_ok=True)
     files: dict[str, dict[str, str]] = {}
@@ -42,6 +46,17 @@ def write_build(result: BuildResult, folder: Path,
         files[built.plate.name] = rel
         svgs[built.plate.name] = svg
     report = build_report(result, files)
+    extra_html: dict[str, str] = {}
+    by_plate = {a.plate: a for a in analyses}
+    for entry in report["plates"]:
+        analysis = by_plate.get(entry["name"])
+        if analysis is None:
+            continue
+        entry["fea"] = analysis.to_report()
+        plots = write_plots(analysis, folder, safe_name(analysis.plate))
+        for case in entry["fea"]["load_cases"]:
+            case["plots"] = plots.get(case["name"], {})
+        extra_html[entry["name"]] = fea_html(analysis, entry["fea"], folder, plots)
     (folder / "report.json").write_text(json.dumps(report, indent=2), encoding="utf-8")
     (folder / "report.html").write_text(render_report(report, svgs, extra_html), encoding="utf-8")
     return report

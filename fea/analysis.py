@@ -33,7 +33,7 @@ from .mesh import Mesh
 from .quadratic import QuadraticMesh, quadratic_mesh
 from .results import CaseFields, CaseResult, CollisionResult, LimitCheck, PlateAnalysis
 from .rigid import MEMBRANE_MODE_NAMES, membrane_rigid_modes
-from .solve import ConvergenceError, UnderSupportedError, solve_system
+from .solve import ConvergenceError, MechanismError, UnderSupportedError, solve_system
 
 __all__ = [
     "BYTES_PER_DOF",
@@ -173,21 +173,34 @@ def _solve_case(plate: Plate, case: LoadCase, mesh: Mesh, quad: QuadraticMesh | 
         modes = membrane_rigid_modes(quad.nodes, tuple(quad.nodes.mean(axis=0)))
         names = MEMBRANE_MODE_NAMES
     t1 = time.perf_counter()
+    args = (k, mapped.f, mapped.fixed_dofs, mapped.fixed_values)
+    kw = {"rigid_modes": modes, "mode_names": names, "spring_matrix": mapped.spring_matrix}
+    fell_back = False
     try:
-        sol = solve_system(k, mapped.f, mapped.fixed_dofs, mapped.fixed_values, rigid_modes=modes,
-                           mode_names=names, method=method, spring_matrix=mapped.spring_matrix)
+        try:
+            sol = solve_system(*args, method=method, **kw)
+        except ConvergenceError:
+            if method != "auto":
+                raise
+            sol = solve_system(*args, method="direct", **kw)  # multigrid failed: factorise
+            fell_back = True
+    except MechanismError as exc:
+        path = f"{case.path}.supports"
+        raise DesignError(Problem(path, f"load case '{case.name}': {exc}",
+                                  line_of(path) if line_of else None)) from exc
     except UnderSupportedError as exc:
         path = f"{case.path}.supports"
         raise DesignError(Problem(path, f"load case '{case.name}': the supports leave the plate "
-                                  f"free ({', '.join(exc.free_motions)}): {exc}",
+                                  f"free to move: {', '.join(exc.free_motions)}",
                                   line_of(path) if line_of else None,
-                                  "add or widen supports so that no rigid motion is left"))\
-            from exc
+                                  "add a support (fixed or elastic) that blocks "
+                                  + ("this motion" if len(exc.free_motions) == 1 else
+                                     "these motions"))) from exc
     except ConvergenceError as exc:
         raise DesignError(Problem(case.path, f"load case '{case.name}': {exc}",
                                   line_of(case.path) if line_of else None,
                                   "try method='direct' or a larger mesh_size_mm")) from exc
-    return sol, t1 - t0, time.perf_counter() - t1
+    return sol, t1 - t0, time.perf_counter() - t1, fell_back
 
 
 def _recover(plate: Plate, case: LoadCase, mesh: Mesh, quad: QuadraticMesh | None, u: np.ndarray,
@@ -235,8 +248,8 @@ def _run_case(plate: Plate, case: LoadCase, meshes: _PlateMeshes, size_mm: float
                       line_of=line_of)
     dmat, iso = _matrices(plate, case)
     timings["map"] = time.perf_counter() - t0
-    sol, timings["assemble"], timings["solve"] = _solve_case(plate, case, mesh, quad, mapped,
-                                                             dmat, method, line_of)
+    sol, timings["assemble"], timings["solve"], fell_back = _solve_case(
+        plate, case, mesh, quad, mapped, dmat, method, line_of)
     t0 = time.perf_counter()
     nodes, tris, disp, vm = _recover(plate, case, mesh, quad, sol.u, dmat)
     defl = np.abs(disp[:, 2]) if case.family == "bending" else np.hypot(disp[:, 0], disp[:, 1])
@@ -254,6 +267,12 @@ def _run_case(plate: Plate, case: LoadCase, meshes: _PlateMeshes, size_mm: float
     reaction = (0.0, 0.0, float(r[:, 0].sum())) if dpn == 3 else (
         float(r[:, 0].sum()), float(r[:, 1].sum()), 0.0)
     notes = list(mapped.notes)
+    if fell_back:
+        notes.append("multigrid did not converge; the system was solved by direct factorisation")
+    if not iso and case.grain_deg is None:
+        notes.append(f"{plate.material.name}: orthotropic properties with the face grain taken "
+                     "along x (grain_deg not given); if the grain runs across, the plate is "
+                     "softer - set grain_deg")
     if iso and _is_wood(plate.material):
         notes.append(f"{plate.material.name}: isotropic E and nu were used (no orthotropic data); "
                      "wood-based sheet is stiffer along the face grain than across it")
@@ -343,9 +362,15 @@ def analyse_design(
     out = []
     for plate in plates:
         cases = [c for c in loads.cases if c.plate == plate.name]
-        if cases:
+        if not cases:
+            continue
+        try:
             out.append(analyse_plate(plate, cases, components=loads.components,
                                      vehicle_mass_g=vmass, size_mm=size_mm, method=method,
                                      progress=progress, line_of=line_of,
                                      memory_limit_bytes=memory_limit_bytes))
+        except DesignError as exc:
+            if exc.source:
+                raise
+            raise DesignError(exc.problems, getattr(design, "source_path", "")) from exc
     return out

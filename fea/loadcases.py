@@ -98,10 +98,11 @@ class Support:
 
     at: bores | edge | mount | points. features: feature names (bores: one or more; edge, mount:
     one; an empty tuple on an edge means the plate outline). mode: rigid | elastic.
-    stiffness_n_per_mm: total stiffness of an elastic support, N/mm (vertical in bending; in
-    each in-plane direction in in_plane). rotational_stiffness_n_mm_per_rad: total tilt stiffness
-    of an elastic support in bending, N mm/rad. condition: clamped | pinned (edge, points).
-    region: part of the edge (None: all of it). points_mm: support points, mm. path: field path.
+    stiffness_n_per_mm: stiffness of an elastic support at EACH named feature, N/mm (vertical
+    in bending; in each in-plane direction in in_plane), shared along the feature's rim by edge
+    length. rotational_stiffness_n_mm_per_rad: tilt stiffness of each, bending, N mm/rad.
+    condition: clamped | pinned (edge, points). region: part of the edge (None: all of it).
+    points_mm: support points, mm. path: field path.
     """
 
     at: str
@@ -301,10 +302,12 @@ _SUPPORT = {
     "feature": _Spec("text", "feature name (mount, edge; edge default: the outline)"),
     "mode": _Spec("text", "rigid: rim fixed; elastic: rim on springs", default="rigid",
                   choices=("rigid", "elastic")),
-    "stiffness_n_per_mm": _Spec("number", "elastic: total stiffness (vertical in bending, each "
-                                "in-plane direction in in_plane)", "N/mm", gt=0.0),
-    "rotational_stiffness_n_mm_per_rad": _Spec("number", "elastic, bending: total tilt stiffness",
-                                               "N mm/rad", default=0.0, ge=0.0),
+    "stiffness_n_per_mm": _Spec("number", "elastic: stiffness of EACH named bore or mount "
+                                "(vertical in bending; each in-plane direction in in_plane)",
+                                "N/mm", gt=0.0),
+    "rotational_stiffness_n_mm_per_rad": _Spec("number", "elastic, bending: tilt stiffness of "
+                                               "each named bore or mount", "N mm/rad",
+                                               default=0.0, ge=0.0),
     "condition": _Spec("text", "clamped: no deflection, no slope; pinned: no deflection (in "
                        "in_plane both fix the edge)", choices=("clamped", "pinned")),
     "region_mm": _Spec("region", "part of the edge: " + _REGION_DOC),
@@ -524,9 +527,9 @@ def _discriminated(rd: _Reader, raw: Any, path: str, key: str, table: Mapping[st
         rd.fail(path, f"expected a mapping ({title}), got {raw!r}")
         return {}, False
     kind = raw.get(key)
-    if kind not in keys_by:
+    if not isinstance(kind, str) or kind not in keys_by:
         rd.fail(f"{path}.{key}" if key in raw else path,
-                f"{'missing' if kind is None else repr(kind) + ' is not a valid'} '{key}'",
+                f"missing '{key}'" if kind is None else f"{kind!r} is not a valid {key}",
                 "valid: " + ", ".join(keys_by))
         return {}, False
     return rd.record(raw, table, path, f"a {title} with {key}: {kind}", keys_by[kind])
@@ -726,12 +729,12 @@ def _check_family(rd: _Reader, case: LoadCase, comps: Mapping[str, Component], c
         mx, my, mz = ld.moment_n_mm
         if ld.type in ("force", "edge") and (bool(fx or fy) if bending else bool(fz)):
             rd.fail(f"{ld.path}.force_n", f"a {case.family} case takes only "
-                    f"{'Fz' if bending else 'Fx and Fy'}", "put the other components in a "
-                    f"{'in_plane' if bending else 'bending'} case")
+                    f"{'Fz' if bending else 'Fx and Fy'}", "put the other components in "
+                    f"{'an in_plane' if bending else 'a bending'} case")
         if ld.type == "moment" and (bool(mz) if bending else bool(mx or my)):
             rd.fail(f"{ld.path}.moment_n_mm", f"a {case.family} case takes only "
-                    f"{'Mx and My' if bending else 'Mz'}", "put the other components in a "
-                    f"{'in_plane' if bending else 'bending'} case")
+                    f"{'Mx and My' if bending else 'Mz'}", "put the other components in "
+                    f"{'an in_plane' if bending else 'a bending'} case")
         if ld.type == "pressure" and not bending:
             rd.fail(f"{ld.path}.type", "a pressure acts across the plate: use family: bending")
         if ld.type == "component":
@@ -818,14 +821,17 @@ def parse_loads(design: Any, plates: Sequence[Plate] | None = None) -> LoadInput
         elif _check_component(rd, comp):
             comps[comp.id] = comp
     cases: list[LoadCase] = []
+    seen: set[str] = set()
     for i, raw in enumerate(getattr(design, "load_cases", ()) or ()):
         case, clean = _read_case(rd, raw, f"load_cases[{i}]")
-        if case is None:
-            continue
-        if any(c.name == case.name for c in cases):
-            rd.fail(f"{case.path}.name", f"duplicate load case name '{case.name}'",
+        name = raw.get("name") if isinstance(raw, Mapping) else None
+        if isinstance(name, str) and name in seen:
+            rd.fail(f"load_cases[{i}].name", f"duplicate load case name '{name}'",
                     "names must differ")
-        elif _check_case(rd, case, comps, clean) and clean:
+            continue
+        if isinstance(name, str):
+            seen.add(name)
+        if case is not None and _check_case(rd, case, comps, clean) and clean:
             cases.append(case)
     if rd.problems:
         raise DesignError(rd.problems, getattr(design, "source_path", ""))
@@ -863,6 +869,8 @@ def describe_load_cases() -> str:
         "fastener slip, stress raisers at cut edges, creep, impact and material scatter. Confirm "
         "any part whose failure could hurt someone by testing it.\n",
         _table("Components (`components:`)", _COMPONENT),
+        "A top-level `vehicle_mass_g` (g) sets the mass of the vehicle for every collision "
+        "(default: every plate times its quantity plus every component).\n",
         _table("Load case (`load_cases:`)", _CASE),
         _table("Supports (`supports:`)", _SUPPORT, support_use + ". A case whose supports let "
                "the plate move as a rigid body is refused, naming the free motion."),

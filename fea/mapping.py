@@ -121,6 +121,13 @@ class _Mapper:
             where = f" inside region {region.describe()}" if region is not None else ""
             raise self.fail(path, f"{what} has no mesh edge{where}",
                             "check the feature and region, or use a smaller mesh_size_mm")
+        ids = {f.id for f in resolve_feature(self.plate, name)}
+        for tag in {self.mesh.tag_names[i] for i in self.mesh.boundary_tags[rows]}:
+            others = [t for t in tag.split("+") if t not in ids]
+            if others:
+                self.notes.append(f"'{name or self.plate.outline.id}' touches "
+                                  f"{', '.join(others)}: they share one mesh edge, so a load or "
+                                  "support on one acts on the joined edge")
         if self.bending:
             return self.mesh.boundary_edges[rows]
         return np.column_stack([self.mesh.boundary_edges[rows], self.quad.boundary_midpoints[rows]])
@@ -270,23 +277,26 @@ class _Mapper:
                 sup = ps.simply_supported(_EdgeView(self.nodes, edges), "sel", hard=hard)
                 self.fixed.append(sup.fixed_dofs)
             return
-        lin = edges[:, :2]
-        if self.bending:
-            sup = ps.elastic_ring_support(
-                _EdgeView(self.nodes, lin), "sel", s.stiffness_n_per_mm,
-                rotational_stiffness_nmm_per_rad=s.rotational_stiffness_n_mm_per_rad)
-            self.springs.append(sup.spring_matrix)
-        else:
-            pts_nodes, share = _consistent_shares(edges, self.nodes, len(self.nodes))
-            k = s.stiffness_n_per_mm * share[pts_nodes]
-            rows = np.concatenate([2 * pts_nodes, 2 * pts_nodes + 1])
-            vals = np.concatenate([k, k])
-            self.springs.append(sp.csr_matrix((vals, (rows, rows)), shape=(self.n_dofs,) * 2))
+        for name in names:  # an elastic support: the stiffness is that of each named feature
+            ring = self.edges(name, None, f"{s.path}.{_field(s)}")
+            if self.bending:
+                sup = ps.elastic_ring_support(
+                    _EdgeView(self.nodes, ring), "sel", s.stiffness_n_per_mm,
+                    rotational_stiffness_nmm_per_rad=s.rotational_stiffness_n_mm_per_rad)
+                self.springs.append(sup.spring_matrix)
+            else:
+                at, share = _consistent_shares(ring, self.nodes, len(self.nodes))
+                k = s.stiffness_n_per_mm * share[at]
+                rows = np.concatenate([2 * at, 2 * at + 1])
+                self.springs.append(sp.csr_matrix((np.concatenate([k, k]), (rows, rows)),
+                                                  shape=(self.n_dofs,) * 2))
 
 
 def _field(s: Support) -> str:
-    return {"bores": "features", "mount": "feature", "edge": "region_mm"}[s.at] if not (
-        s.at == "edge" and s.region is None) else "feature"
+    """The support's field an error about its edges points at."""
+    if s.at == "edge":
+        return "feature" if s.region is None else "region_mm"
+    return "features" if s.at == "bores" else "feature"
 
 
 def _tributary(edges: np.ndarray, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -108,7 +108,7 @@ def flip_to_delaunay(
         end = tri[:, [1, 2, 0]].ravel()
         opp = tri[:, [2, 0, 1]].ravel()
         key = np.minimum(start, end) * n + np.maximum(start, end)
-        order = np.argsort(key, kind="stable")
+        order = np.argsort(key)
         ks = key[order]
         pair = np.flatnonzero(ks[1:] == ks[:-1])
         h1 = order[pair]
@@ -121,7 +121,8 @@ def flip_to_delaunay(
         h1, h2, a, b, c, d, score = (v[cand] for v in (h1, h2, a, b, c, d, score))
         f1, f2 = h1 // 3, h2 // 3
         # Unique priorities: the score, ties broken by position.
-        prio = np.argsort(np.argsort(score, kind="stable"), kind="stable").astype(np.int64)
+        prio = np.empty(len(score), dtype=np.int64)
+        prio[np.argsort(score)] = np.arange(len(score))
         best = np.full(m, -1, dtype=np.int64)
         np.maximum.at(best, f1, prio)
         np.maximum.at(best, f2, prio)
@@ -196,6 +197,16 @@ class Mesh:
         """
         p = self.nodes[self.triangles]
         return np.linalg.norm(np.roll(p, -1, axis=1) - p, axis=2)
+
+    def corner_angles_deg(self) -> np.ndarray:
+        """Interior angle of the region at every node, degrees: (n,) float.
+
+        The sum of the triangle angles at the node: 360 inside, 180 on a straight stretch of
+        boundary, less at a convex corner. A triangle at a corner of angle a cannot have its
+        smallest angle above a, so this tells where the geometry limits the mesh quality.
+        """
+        ang = triangle_angles_deg(self.nodes, self.triangles)
+        return np.bincount(self.triangles.ravel(), ang.ravel(), minlength=self.n_nodes)
 
     def quality(self) -> MeshQuality:
         """Angle and aspect-ratio measures of the mesh (see MeshQuality)."""

@@ -45,7 +45,8 @@ def plot_field(result: CaseResult, field: str = "deflection", *, dpi: int = 110,
     x0, y0 = xy.min(axis=0)
     x1, y1 = xy.max(axis=0)
     aspect = (y1 - y0) / max(x1 - x0, 1e-9)
-    fig = Figure(figsize=(width_in, max(2.5, min(width_in * aspect + 1.2, 2 * width_in))), dpi=dpi)
+    fig = Figure(figsize=(width_in, max(2.5, min(width_in * aspect + 0.8, 2 * width_in))), dpi=dpi,
+                 layout="constrained")
     FigureCanvasAgg(fig)
     ax = fig.add_subplot(1, 1, 1)
     tri = Triangulation(xy[:, 0], xy[:, 1], f.triangles)

@@ -121,8 +121,11 @@ def _size_bands(sizes: np.ndarray, h_min: float) -> np.ndarray:
 class SizeField:
     """Graded size field h(x), mm, from boundary samples (see the module docstring).
 
-    ``points_mm``: (n, 2) float sample points; ``sizes_mm``: (n,) float their sizes.
-    Calling it on (m, 2) float points gives (m,) float sizes in [min_size_mm, max_size_mm].
+    ``points_mm``: (n, 2) float sample points; ``sizes_mm``: (n,) float their sizes, used as
+    given below ``max_size_mm`` (the callers apply ``min_size_mm`` to the automatic refinement
+    only, never to input segments the mesh must keep). Calling it on (m, 2) float points gives
+    (m,) float sizes in [min_size_mm, max_size_mm], where ``min_size_mm`` becomes the smallest
+    sample size when that is smaller.
     """
 
     #: Neighbours looked at per size band when evaluating; within a band sizes differ by < 2x.
@@ -138,10 +141,12 @@ class SizeField:
     ) -> None:
         if not (max_size_mm > 0 and 0 < min_size_mm <= max_size_mm and grading > 0):
             raise ValueError("need max_size_mm >= min_size_mm > 0 and grading > 0")
+        sizes = np.minimum(np.asarray(sizes_mm, dtype=float), max_size_mm)
+        if len(sizes) and not np.all(sizes > 0.0):
+            raise ValueError("sample sizes must be positive")
         self.max_size_mm = float(max_size_mm)
-        self.min_size_mm = float(min_size_mm)
+        self.min_size_mm = float(min(min_size_mm, sizes.min())) if len(sizes) else min_size_mm
         self.grading = float(grading)
-        sizes = np.clip(np.asarray(sizes_mm, dtype=float), min_size_mm, max_size_mm)
         pts = np.asarray(points_mm, dtype=float).reshape(-1, 2)
         small = sizes < self.max_size_mm * (1.0 - 1e-12)
         pts, sizes = pts[small], sizes[small]
@@ -175,10 +180,15 @@ class SizeField:
 
 
 def _piece_sizes(
-    pa: np.ndarray, pb: np.ndarray, seg_len: np.ndarray, reach: np.ndarray | float, h_max: float
+    pa: np.ndarray,
+    pb: np.ndarray,
+    seg_len: np.ndarray,
+    reach: np.ndarray | float,
+    h_max: float,
+    h_min: float,
 ) -> tuple[np.ndarray, np.ndarray]:
     radius = local_feature_radius(pa, pb, reach)
-    size = np.minimum(np.minimum(FEATURE_FRACTION * radius, seg_len), h_max)
+    size = np.minimum(np.minimum(np.maximum(FEATURE_FRACTION * radius, h_min), seg_len), h_max)
     return size, radius
 
 
@@ -192,15 +202,17 @@ def boundary_size_field(
     """Size field for a region bounded by straight segments ``a[i] -> b[i]`` (mm).
 
     ``a``, ``b``: (s, 2) float, every ring closed and oriented with the domain on the left.
-    Two passes: pieces of at most half the maximum size first, then each piece cut to half its
-    first-pass local size and the feature radius found again within twice the first estimate.
+    ``min_size_mm`` bounds the feature-size refinement; an input segment shorter than it still
+    sets the size next to it. Two passes: pieces of at most half the maximum size first, then
+    each piece cut to half its first-pass local size and the feature radius found again within
+    twice the first estimate.
     """
     h_max = float(max_size_mm)
     d = b - a
     seg_len = np.hypot(d[:, 0], d[:, 1])
     reach1 = 2.0 * h_max / FEATURE_FRACTION
     pa, pb, seg = subdivide_segments(a, b, 0.5 * h_max)
-    size1, radius1 = _piece_sizes(pa, pb, seg_len[seg], reach1, h_max)
+    size1, radius1 = _piece_sizes(pa, pb, seg_len[seg], reach1, h_max, min_size_mm)
     field1 = SizeField(0.5 * (pa + pb), size1, h_max, min_size_mm, grading)
     if field1.is_uniform:
         return field1
@@ -208,7 +220,7 @@ def boundary_size_field(
     qa, qb, sub = subdivide_segments(pa, pb, 0.5 * h1)
     r1 = radius1[sub]
     reach2 = np.where(FEATURE_FRACTION * r1 < h_max, np.minimum(2.0 * r1, reach1), 0.0)
-    size2, _ = _piece_sizes(qa, qb, seg_len[seg[sub]], reach2, h_max)
+    size2, _ = _piece_sizes(qa, qb, seg_len[seg[sub]], reach2, h_max, min_size_mm)
     return SizeField(0.5 * (qa + qb), size2, h_max, min_size_mm, grading)
 
 
@@ -309,7 +321,8 @@ def graded_lattice(
             break
         half = 1 << (levels - j - 1)
         cand = (parents[:, None, :] + half * _DIRS[None, :, :]).reshape(-1, 2)
-        cand = np.unique(cand, axis=0)
+        cand = cand[np.lexsort((cand[:, 1], cand[:, 0]))]
+        cand = cand[np.concatenate([[True], np.any(cand[1:] != cand[:-1], axis=1)])]
         cand_lam = np.log2(h0 / size_fn(_xy(cand, origin, s_fine)))
         frac = np.clip((np.power(4.0, cand_lam - j) - 1.0) / 3.0, 0.0, 1.0)
         keep = _dither_threshold(cand, half) < frac

@@ -8,6 +8,9 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from scipy.spatial import Delaunay
+from scipy.spatial.transform import Rotation
+
 from platewright.fea.assembly import assemble_matrix, assemble_vector, element_dofs
 from platewright.fea.bending import (
     bending_rigidity,
@@ -32,8 +35,6 @@ from platewright.fea.plate_supports import (
 )
 from platewright.fea.solve import UnderSupportedError, solve_system
 from platewright.geometry.model import Material
-from scipy.spatial import Delaunay
-from scipy.spatial.transform import Rotation
 
 E_MPA, NU, T_MM = 1000.0, 0.3, 1.0
 

@@ -12,6 +12,9 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+import shapely
+from test_bending import all_edges, assemble_plate, disk_mesh, square_mesh
+
 from platewright.fea.bending import (
     bending_rigidity,
     isotropic_bending_matrix,
@@ -20,9 +23,9 @@ from platewright.fea.bending import (
     orthotropic_bending_matrix,
 )
 from platewright.fea.bending_rigid import BENDING_MODE_NAMES, bending_rigid_modes
+from platewright.fea.mesher import mesh_polygon
 from platewright.fea.plate_supports import clamped, simply_supported
 from platewright.fea.solve import solve_system
-from test_bending import all_edges, assemble_plate, disk_mesh, square_mesh
 
 E_MPA, NU, T_MM = 2000.0, 0.3, 2.0
 SIDE_MM, Q_MPA, P_N = 100.0, 1e-3, 10.0
@@ -199,3 +202,58 @@ def test_rigidity_scaling_is_exact(square):
     w2 = _solve(mesh, sup, f, k2).u[3 * _centre(mesh)]
     assert w1 / w2 == pytest.approx(16.0, rel=1e-9)
     assert bending_rigidity(E_MPA, NU, T_MM) == pytest.approx(D_NMM, rel=1e-14)
+
+
+@pytest.mark.parametrize("support", ["clamped", "simply_supported"])
+def test_circular_plate_on_a_generated_mesh(support):
+    # Same closed forms along the radius (TWK ch. 3): clamped w(r) = q (a^2 - r^2)^2 / (64 D);
+    # simply supported w(r) = q (a^2 - r^2) ((5 + nu) a^2 / (1 + nu) - r^2) / (64 D), here on
+    # an unstructured mesh of a 128-gon from fea.mesher; every node within 1% of w(0).
+    radius = 50.0
+    mesh = mesh_polygon(shapely.Point(0.0, 0.0).buffer(radius, quad_segs=32), size_mm=4.0)
+    k, f = assemble_plate(mesh, DB, Q_MPA)
+    r2 = (mesh.nodes**2).sum(axis=1)
+    a2 = radius**2
+    if support == "clamped":
+        sup, exact = clamped(mesh, "outline"), Q_MPA * (a2 - r2) ** 2 / (64 * D_NMM)
+    else:
+        sup = simply_supported(mesh, "outline")
+        exact = Q_MPA * (a2 - r2) * ((5 + NU) * a2 / (1 + NU) - r2) / (64 * D_NMM)
+    sol = _solve(mesh, sup, f, k)
+    assert np.abs(sol.u[0::3] - exact).max() < 0.01 * exact.max()
+
+
+def test_annular_plate_with_free_bore():
+    # Annular plate, outer edge r = b simply supported, bore r = a free, uniform q. Axisymmetric
+    # Kirchhoff solution (TWK ch. 3): w = q r^4 / (64 D) + C1 + C2 r^2 + C3 ln r + C4 r^2 ln r,
+    # with Q_r(a) = 0 -> C4 = -q a^2 / (8 D), M_r(a) = M_r(b) = 0 and w(b) = 0 solved here.
+    # Compared with the deflection of the bore's edge; within 1%.
+    a, b, q, d, nu = 10.0, 50.0, Q_MPA, D_NMM, NU
+    c4 = -q * a * a / (8 * d)
+
+    def slope_parts(r: float) -> tuple[float, float]:
+        """Known parts of w' and w'' (without C2, C3)."""
+        w1 = q * r**3 / (16 * d) + c4 * (2 * r * np.log(r) + r)
+        w2 = 3 * q * r * r / (16 * d) + c4 * (2 * np.log(r) + 3)
+        return w1, w2
+
+    # M_r = -D (w'' + nu w' / r) = 0; C2 contributes 2 + 2 nu, C3 contributes (nu - 1) / r^2.
+    rows, rhs = [], []
+    for r in (a, b):
+        w1, w2 = slope_parts(r)
+        rows.append([2 + 2 * nu, (nu - 1) / r**2])
+        rhs.append(-(w2 + nu * w1 / r))
+    c2, c3 = np.linalg.solve(rows, rhs)
+
+    def w(r: float) -> float:
+        return q * r**4 / (64 * d) + c2 * r * r + c3 * np.log(r) + c4 * r * r * np.log(r)
+
+    exact_bore = w(a) - w(b)
+    ring = shapely.Point(0.0, 0.0).buffer(b, quad_segs=32)
+    bore = shapely.Point(0.0, 0.0).buffer(a, quad_segs=16)
+    mesh = mesh_polygon(ring.difference(bore), size_mm=3.0, tags=["rim", "bore"])
+    k, f = assemble_plate(mesh, DB, Q_MPA)
+    sol = _solve(mesh, simply_supported(mesh, "rim"), f, k)
+    w_bore = sol.u[3 * mesh.nodes_of("bore")]
+    np.testing.assert_allclose(w_bore, exact_bore, rtol=0.01)
+    assert sol.equilibrium_residual < 1e-10

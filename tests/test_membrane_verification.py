@@ -163,7 +163,7 @@ def _energy_error(nodes, conn, d, u) -> float:
     return float(np.sqrt(np.sum(det[:, None] * ws[None, :] * dens)))
 
 
-@pytest.mark.parametrize("order, levels, rate", [(1, (2, 4, 8), 1.0), (2, (1, 2, 4), 2.0)])
+@pytest.mark.parametrize("order, levels, rate", [(1, (4, 8, 16), 1.0), (2, (1, 2, 4), 2.0)])
 def test_energy_norm_convergence_rates(order: int, levels: tuple[int, ...], rate: float) -> None:
     # A priori estimate |u - u_h|_E = O(h^p) for degree-p elements on a smooth solution (Strang
     # and Fix, An Analysis of the Finite Element Method, ch. 3): T3 -> 1, T6 -> 2.
