@@ -279,8 +279,8 @@ _CASE = {
     "plate": _Spec("text", "plate analysed", required=True),
     "family": _Spec("text", "bending: loads across the plate (Kirchhoff plate); in_plane: loads "
                     "in its plane (plane stress)", required=True, choices=FAMILIES),
-    "g_factor": _Spec("number", "multiplies component weights and self-weight", "g",
-                      default=1.0, ge=0.0),
+    "g_factor": _Spec("number", "multiplies component weights and self-weight (in multiples "
+                      "of gravity, e.g. 3 for a hard landing)", default=1.0, ge=0.0),
     "self_weight": _Spec("flag", "include the plate's own weight (default: true in bending; in "
                          "in_plane true when g_direction is given)"),
     "g_direction": _Spec("vector", "in_plane only: direction [x, y] in which the weights act, "
@@ -300,7 +300,8 @@ _SUPPORT = {
                 choices=("bores", "mount", "edge", "points")),
     "features": _Spec("names", "feature names (bores)"),
     "feature": _Spec("text", "feature name (mount, edge; edge default: the outline)"),
-    "mode": _Spec("text", "rigid: rim fixed; elastic: rim on springs", default="rigid",
+    "mode": _Spec("text", "rigid: rim held (bending: no deflection; in_plane: no movement); "
+                  "elastic: rim on springs", default="rigid",
                   choices=("rigid", "elastic")),
     "stiffness_n_per_mm": _Spec("number", "elastic: stiffness of EACH named bore or mount "
                                 "(vertical in bending; each in-plane direction in in_plane)",
@@ -321,7 +322,7 @@ _SUPPORT_KEYS = {
     "points": ("at", "points_mm", "condition"),
 }
 _LOAD = {
-    "type": _Spec("text", "component, force, moment, edge or pressure", required=True,
+    "type": _Spec("text", "what kind of load", required=True,
                   choices=("component", "force", "moment", "edge", "pressure")),
     "component": _Spec("text", "component id: its weight x g_factor"),
     "feature": _Spec("text", "feature the load is spread on (force, moment; edge default: the "
@@ -847,7 +848,8 @@ def _table(title: str, fields: Mapping[str, _Spec], note: str = "") -> str:
     for name, s in fields.items():
         default = "required" if s.required else ("-" if s.default is None else f"`{s.default}`")
         choices = f" ({' / '.join(s.choices)})" if s.choices else ""
-        rows.append(f"| `{name}` | {s.unit or '-'} | {default} | {s.doc}{choices} |")
+        unit = s.unit or ("mm" if s.kind == "region" else "-")
+        rows.append(f"| `{name}` | {unit} | {default} | {s.doc}{choices} |")
     return "\n".join(rows) + "\n"
 
 

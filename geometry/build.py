@@ -18,7 +18,7 @@ from shapely.geometry import Point as ShapelyPoint
 from shapely.geometry import Polygon
 
 from . import features as fb
-from . import library, outlines
+from . import library, machines, outlines
 from .curves import Contour
 from .design import Design, FeatureSpec, OutlineSpec, PlateSpec
 from .errors import DesignError, Problem
@@ -58,7 +58,7 @@ def plate_kerf_mm(design: Design, spec: PlateSpec) -> float:
         return spec.kerf_mm
     if design.kerf_mm is not None:
         return design.kerf_mm
-    return library.kerf_for(design.machine, spec.material.key, spec.thickness_mm)
+    return machines.kerf_for(design.machine, spec.material.key, spec.thickness_mm)
 
 
 def _outline(spec: OutlineSpec) -> Feature:

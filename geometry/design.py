@@ -16,9 +16,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from . import library
+from . import library, machines
 from .errors import DesignError, Problem
-from .library import MachineProfile
+from .machines import MachineProfile
 from .model import Material
 from .overrides import apply_overrides
 from .schema import DEFAULT_LABEL_HEIGHT_MM, suggest, validate_design
@@ -164,11 +164,11 @@ class _Resolver:
     def machine(self, value: Any, path: str) -> MachineProfile | None:
         try:
             if isinstance(value, Mapping):
-                return library.machine_from_mapping({k: v for k, v in value.items()
-                                                     if v is not None and v != ""})
-            return library.get_machine(value)
+                return machines.machine_from_mapping({k: v for k, v in value.items()
+                                                      if v is not None and v != ""})
+            return machines.get_machine(value)
         except KeyError:
-            keys = sorted(library.load_machines())
+            keys = sorted(machines.load_machines())
             self.fail(path, f"unknown machine profile '{value}'", suggest(str(value), keys)
                       + "; or give an inline mapping {name, bed_mm, kerf_mm}")
         except ValueError as exc:

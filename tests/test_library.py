@@ -9,17 +9,19 @@ import pytest
 
 from platewright.geometry.features import motor_mount
 from platewright.geometry.library import (
-    MachineProfile,
     check_laser_safe,
     clearance_hole_mm,
     clearance_sizes,
-    get_machine,
     get_material,
     get_motor,
-    kerf_for,
-    load_machines,
     load_materials,
     load_motors,
+)
+from platewright.geometry.machines import (
+    MachineProfile,
+    get_machine,
+    kerf_for,
+    load_machines,
     machine_from_mapping,
 )
 
