@@ -15,30 +15,37 @@ import resource
 import sys
 import time
 
-from shapely.geometry import Point, box
+import numpy as np
 
-from platewright.fea.mesher import mesh_polygon
+from platewright.fea.mesher import TaggedRing, mesh_rings
+from platewright.fea.plate_input import sample_contour
+from platewright.geometry.curves import circle
 
-DEFAULT_SIZES_MM = (3.6, 1.25, 0.55)
+DEFAULT_SIZES_MM = (4.5, 1.2, 0.52)
 
 
-def bench_plate():
-    """A 300 x 200 mm deck with 20 round holes of 3 to 16 mm diameter (invented layout)."""
-    plate = box(-150.0, -100.0, 150.0, 100.0)
+def bench_rings(size_mm: float) -> list[TaggedRing]:
+    """A 300 x 200 mm deck with 20 round holes of 3 to 16 mm diameter (invented layout).
+
+    Holes are sampled as the plate input does (chords no longer than the local size).
+    """
+    outline = np.array([[-150.0, -100.0], [150.0, -100.0], [150.0, 100.0], [-150.0, 100.0]])
+    rings = [TaggedRing(outline, "outline", False)]
     diameters = [3.0, 5.0, 8.0, 12.0, 16.0]
     for i in range(5):
         for j in range(4):
             x = -120.0 + 60.0 * i + (6.0 if j % 2 else 0.0)
             y = -75.0 + 50.0 * j
             d = diameters[(i + j) % 5]
-            plate = plate.difference(Point(x, y).buffer(d / 2.0, quad_segs=16))
-    return plate
+            pts = sample_contour(circle((x, y), d / 2.0, ccw=False), size_mm)
+            rings.append(TaggedRing(pts, f"hole_{i}_{j}", True))
+    return rings
 
 
 def _run(size_mm: float, out: mp.Queue) -> None:
-    plate = bench_plate()
+    rings = bench_rings(size_mm)
     t0 = time.perf_counter()
-    mesh = mesh_polygon(plate, size_mm)
+    mesh = mesh_rings(rings, size_mm)
     dt = time.perf_counter() - t0
     peak_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
     q = mesh.quality()

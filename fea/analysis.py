@@ -11,6 +11,7 @@ Every result is an ESTIMATE (see fea.results.ESTIMATE_NOTE). Units: mm, N, MPa, 
 from __future__ import annotations
 
 import math
+import re
 import time
 from collections.abc import Callable, Mapping, Sequence
 from typing import Any
@@ -120,7 +121,10 @@ def _matrices(plate: Plate, case: LoadCase) -> tuple[np.ndarray, bool]:
     m = plate.material
     if not m.laser_safe:
         raise DesignError(Problem(case.path, f"material '{m.key}' is refused: {m.refusal_reason}"))
-    ortho = m.orthotropic
+    # Grain not stated: isotropic values with the library's single modulus, which for wood-based
+    # sheet is the weaker (across-grain) direction (REFERENCE.md: use the weaker direction
+    # unless the design states the grain).
+    ortho = m.orthotropic if case.grain_deg is not None else None
     angle = math.radians(case.grain_deg or 0.0)
     if case.family == "in_plane":
         return material_plane_stress(m, angle if ortho else None), ortho is None
@@ -234,13 +238,30 @@ def _run_case(plate: Plate, case: LoadCase, meshes: _PlateMeshes, size_mm: float
                                   f"use mesh_size_mm of at least {smallest:.3g}"))
     timings: dict[str, float] = {}
     t0 = time.perf_counter()
-    max_nodes = max(1000, memory_limit_bytes // (BYTES_PER_DOF * _DOFS_PER_VERTEX[case.family]))
+    dpv = _DOFS_PER_VERTEX[case.family]
     try:
-        mesh, rings, fresh = meshes.linear(h, int(max_nodes))
+        mesh, rings, fresh = meshes.linear(h, int(memory_limit_bytes // (BYTES_PER_DOF * dpv)))
     except ValueError as exc:
-        raise DesignError(Problem(size_path, f"load case '{case.name}': cannot mesh plate "
-                                  f"'{plate.name}' at {h:g} mm: {exc}",
-                                  line_of(size_path) if line_of else None)) from exc
+        found = re.search(r"about ([\d,]+) nodes", str(exc))
+        if found is None:
+            raise DesignError(Problem(size_path, f"load case '{case.name}': cannot mesh plate "
+                                      f"'{plate.name}' at {h:g} mm: {exc}",
+                                      line_of(size_path) if line_of else None)) from exc
+        n = int(found.group(1).replace(",", ""))
+        raise DesignError(Problem(size_path, f"load case '{case.name}': a mesh of {h:g} mm "
+                                  f"would have about {n:,} nodes (refined at small features) and "
+                                  f"{n * dpv:,} unknowns, needing about "
+                                  f"{n * dpv * BYTES_PER_DOF / 1e6:,.0f} MB (limit "
+                                  f"{memory_limit_bytes / 1e6:,.0f} MB)",
+                                  line_of(size_path) if line_of else None,
+                                  "use a larger mesh_size_mm")) from exc
+    need = mesh.n_nodes * _DOFS_PER_VERTEX[case.family] * BYTES_PER_DOF
+    if need > memory_limit_bytes:  # refinement at small features made more nodes than estimated
+        raise DesignError(Problem(size_path, f"load case '{case.name}': the mesh of {h:g} mm has "
+                                  f"{mesh.n_nodes:,} nodes, needing about {need / 1e6:,.0f} MB "
+                                  f"(limit {memory_limit_bytes / 1e6:,.0f} MB)",
+                                  line_of(size_path) if line_of else None,
+                                  "use a larger mesh_size_mm"))
     quad = meshes.quadratic(h) if case.family == "in_plane" else None
     timings["mesh"] = time.perf_counter() - t0 if fresh else 0.0
     t0 = time.perf_counter()
@@ -269,11 +290,11 @@ def _run_case(plate: Plate, case: LoadCase, meshes: _PlateMeshes, size_mm: float
     notes = list(mapped.notes)
     if fell_back:
         notes.append("multigrid did not converge; the system was solved by direct factorisation")
-    if not iso and case.grain_deg is None:
-        notes.append(f"{plate.material.name}: orthotropic properties with the face grain taken "
-                     "along x (grain_deg not given); if the grain runs across, the plate is "
-                     "softer - set grain_deg")
-    if iso and _is_wood(plate.material):
+    if iso and plate.material.orthotropic and case.grain_deg is None:
+        notes.append(f"{plate.material.name}: grain direction not given (grain_deg), so isotropic "
+                     "values in the weaker, across-grain direction were used; set grain_deg to "
+                     "use the orthotropic properties")
+    elif iso and _is_wood(plate.material):
         notes.append(f"{plate.material.name}: isotropic E and nu were used (no orthotropic data); "
                      "wood-based sheet is stiffer along the face grain than across it")
     coll = None

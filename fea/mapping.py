@@ -8,10 +8,11 @@ Two families:
   ``2 * node + k``); weights act along the case's ``g_direction``.
 
 Features are found on the mesh by their boundary tags (a tag ``a+b`` marks merged holes and
-belongs to both). Forces and moments on a feature are spread over its edges as a line load
-``q(s) = l(s) (a + b (x - x_c) + c (y - y_c))`` (bending) or ``a + c k x (x - x_c)`` (in
-plane), with x_c the edge centroid: the least-squares-smallest line load with the requested
-total force and moment, which is uniform when no moment is asked for.
+belongs to both). Forces and moments on a feature are spread over its edges: in bending as
+nodal forces ``f_i = l_i (a + b (x_i - x_c) + c (y_i - y_c))`` on w (l_i the tributary edge
+length), in plane as the line load ``q(x) = a + c e_z x (x - x_c)``, with x_c the centroid of
+the edges. This is the smallest (least-squares) distribution with the requested total force and
+moment about x_c, and it is uniform when no moment is asked for.
 
 Units: mm, N, N mm, N/mm, MPa; masses g; densities kg/m^3.
 """
@@ -122,7 +123,7 @@ class _Mapper:
             raise self.fail(path, f"{what} has no mesh edge{where}",
                             "check the feature and region, or use a smaller mesh_size_mm")
         ids = {f.id for f in resolve_feature(self.plate, name)}
-        for tag in {self.mesh.tag_names[i] for i in self.mesh.boundary_tags[rows]}:
+        for tag in sorted({self.mesh.tag_names[i] for i in self.mesh.boundary_tags[rows]}):
             others = [t for t in tag.split("+") if t not in ids]
             if others:
                 self.notes.append(f"'{name or self.plate.outline.id}' touches "

@@ -15,8 +15,15 @@ Method (a conforming Delaunay mesher with distmesh smoothing):
    triangulation; J. R. Shewchuk, "Delaunay refinement algorithms for triangular mesh
    generation", Computational Geometry 22 (2002), section 2);
 5. smoothing by the truss-force iteration of P.-O. Persson and G. Strang, "A simple mesh
-   generator in MATLAB", SIAM Review 46 (2004) 329-345, with boundary nodes fixed, re-triangulating
-   when nodes have moved far, followed by a last recovery pass.
+   generator in MATLAB", SIAM Review 46 (2004) 329-345, with boundary nodes fixed; instead of a
+   full re-triangulation the connectivity is made Delaunay again by Lawson edge flips whenever
+   nodes have moved far (boundary edges are never flipped, so the mesh stays conforming);
+6. a short optimisation-based clean-up of the interior corners of triangles still below 20
+   degrees (moves accepted only when the worst angle around the node improves).
+
+Where the geometry itself forbids 20 degrees (an input corner sharper than that, an input
+segment or web far below ``min_size_mm``) the mesh is still valid and conforming; the corner
+angles are available from :meth:`.mesh.Mesh.corner_angles_deg`.
 
 All lengths in mm. Vectorised numpy: loops are over rings, levels or iterations only.
 """
@@ -251,7 +258,7 @@ class _Work:
     def nodes(self) -> np.ndarray:
         return np.vstack([self.bnodes, self.inner])
 
-    def recover(self, field: SizeField) -> np.ndarray:
+    def recover(self) -> np.ndarray:
         """Make every boundary segment a Delaunay edge; returns all Delaunay triangles."""
         for _ in range(_RECOVERY_ROUNDS):
             nodes = self.nodes
@@ -435,7 +442,8 @@ def _smooth(work: _Work, reg: _Region, field: SizeField) -> np.ndarray:
     ``_FSCALE * h * sqrt(sum L^2 / sum h^2)`` over all bars.
     """
     poly = reg.polygon
-    tri = _inside_triangles(work.nodes, work.recover(field), poly)
+    tri_all = work.recover()  # may split boundary segments and drop interior nodes
+    tri = _inside_triangles(work.nodes, tri_all, poly)
     nb = len(work.bnodes)
     p = work.nodes
     if len(work.inner) == 0:
@@ -549,9 +557,10 @@ def _finish(work: _Work, tri: np.ndarray, tag_names: tuple[str, ...]) -> Mesh:
         )
     if np.any(triangle_areas_mm2(nodes, tri) <= 0.0):
         raise RuntimeError("mesh has a triangle of zero area")
-    for arr in (nodes, tri, segs, work.tags):
+    tags = work.tags.astype(np.int64)
+    for arr in (nodes, tri, segs, tags):
         arr.setflags(write=False)
-    return Mesh(nodes, tri, segs, work.tags.astype(np.int64), tag_names)
+    return Mesh(nodes, tri, segs, tags, tag_names)
 
 
 def mesh_rings(

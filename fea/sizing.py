@@ -20,6 +20,9 @@ over boundary sample points ``b`` whose own size ``h_b`` is the smallest of
 Sizes grow away from the boundary by at most ``grading`` mm per mm, the usual graded-size
 (Lipschitz) field of Persson and Strang, SIAM Review 46 (2004), section 5.
 
+The module also holds :func:`graded_lattice`, the size-graded interior point set that follows
+the field (nested triangular lattices thinned by ordered dithering; see the comment above it).
+
 All lengths in mm.
 """
 

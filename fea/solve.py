@@ -217,6 +217,30 @@ def _pcg(
     return x, maxiter
 
 
+def _v_cycle(ml):
+    """One V-cycle of a pyamg hierarchy as a function r -> z, starting from zero.
+
+    Written out (rather than pyamg's own solve) so that no residual norms are computed per
+    application. Symmetric smoothing and an exact coarse solve keep it symmetric positive
+    definite, as CG requires.
+    """
+    levels = ml.levels
+    last = len(levels) - 1
+
+    def cycle(lvl: int, b: np.ndarray) -> np.ndarray:
+        level = levels[lvl]
+        if lvl == last:
+            return np.asarray(ml.coarse_solver(level.A, b), dtype=float).ravel()
+        x = np.zeros_like(b)
+        level.presmoother(level.A, x, b)
+        coarse = cycle(lvl + 1, level.R @ (b - level.A @ x))
+        x += level.P @ coarse
+        level.postsmoother(level.A, x, b)
+        return x
+
+    return lambda r: cycle(0, r)
+
+
 def _solve_amg(
     a: sp.csr_matrix, b: np.ndarray, near_null: np.ndarray, tol: float, maxiter: int
 ) -> tuple[np.ndarray, int]:
@@ -237,7 +261,7 @@ def _solve_amg(
         max_coarse=300,
         coarse_solver="splu",
     )
-    precond = ml.aspreconditioner(cycle="V")
+    precond = _v_cycle(ml)
     norm_b = np.sqrt(_dot(b, b))
     norm_a = float(abs(a).sum(axis=0).max())  # 1-norm
     x = np.zeros_like(b)

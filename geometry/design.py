@@ -98,7 +98,8 @@ class Design:
     the design's material key; ``thickness_mm``; ``machine`` the profile in use; ``kerf_mm`` the
     design-wide kerf override (mm) or None; ``references`` name -> value (file order);
     ``reference_depends`` name -> every reference it uses; ``load_cases`` and ``components``
-    the raw entries of those sections; ``warnings`` material cautions for the materials in use;
+    the raw entries of those sections; ``vehicle_mass_g`` the mass for collision cases (g) or
+    None; ``warnings`` material cautions for the materials in use;
     ``overrides`` the ``--set`` texts applied.
     """
 
@@ -112,6 +113,7 @@ class Design:
     references: dict[str, float]
     plates: tuple[PlateSpec, ...]
     load_cases: tuple[dict[str, Any], ...] = ()
+    vehicle_mass_g: float | None = None
     components: tuple[dict[str, Any], ...] = ()
     reference_depends: dict[str, frozenset[str]] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
@@ -239,6 +241,7 @@ def _design(tree: Any, lines: LineMap, source_path: str, sha256: str,
         thickness_mm=top["thickness_mm"], machine=machine, kerf_mm=top["kerf_mm"],
         references=dict(val.references), plates=tuple(p for p in plates if p is not None),
         load_cases=tuple(top["load_cases"]), components=tuple(top["components"]),
+        vehicle_mass_g=top.get("vehicle_mass_g"),
         reference_depends=dict(val.depends), warnings=tuple(res.warnings),
         overrides=tuple(overrides), lines=lines)
 

@@ -207,8 +207,12 @@ DESIGN = Record("design", {
     "references": Field(RefTable(), "named dimensions; values may use other references",
                         default={}),
     "plates": Field(ListOf(PLATE, min_len=1, unique="name"), "the plates", required=True),
-    "load_cases": Field(ListOf(Raw()), "load cases (kept as written for now)", default=[]),
-    "components": Field(ListOf(Raw()), "point masses (kept as written for now)", default=[]),
+    "load_cases": Field(ListOf(Raw()), "load cases for `platewright check` (fields: see 'Load "
+                        "cases and components')", default=[]),
+    "components": Field(ListOf(Raw()), "point masses carried by plates (fields: see 'Load cases "
+                        "and components')", default=[]),
+    "vehicle_mass_g": Field(Number(gt=0.0), "mass of the whole vehicle for collision cases, g "
+                            "(default: all plates x quantity + all components)"),
 })
 
 

@@ -409,3 +409,41 @@ def test_starter_design_copies_with_suggested_load_cases(starter):
         assert c.applied_force_n[axis] == pytest.approx(value, rel=2e-3), c.name
         assert c.reaction_force_n[axis] == pytest.approx(-value, rel=2e-3), c.name
         assert c.equilibrium_residual < 1e-9
+
+
+_DETERMINISM_SCRIPT = """
+import json, sys
+from types import SimpleNamespace
+sys.path.insert(0, sys.argv[1])
+from plate_factory import make_plate, rect_contour, round_hole
+from platewright.fea.analysis import analyse_design
+holes = (round_hole("a", (-20.0, 0.0), 6.0), round_hole("b", (-14.5, 0.0), 6.0))
+plate = make_plate(rect_contour(100, 60), holes, name="deck")
+case = {"name": "c", "plate": "deck", "family": "bending",
+        "supports": [{"at": "bores", "features": ["a"]},
+                     {"at": "edge", "condition": "pinned", "region_mm": {"x_min": 50}}]}
+design = SimpleNamespace(load_cases=[case], components=[], references={},
+                         line_of=lambda _p: None)
+rep = analyse_design(design, [plate], size_mm=6.0)[0].cases[0].to_report()
+rep.pop("timings_s")
+print(json.dumps(rep, sort_keys=True))
+"""
+
+
+def test_results_do_not_depend_on_hash_seed():
+    # Determinism across processes: string hashing is randomised per process (PYTHONHASHSEED),
+    # so any order taken from a set would show up here. Two touching holes give a merged tag.
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    here = str(Path(__file__).parent)
+    outs = []
+    for seed in ("1", "2"):
+        env = {**os.environ, "PYTHONHASHSEED": seed}
+        run = subprocess.run([sys.executable, "-c", _DETERMINISM_SCRIPT, here], env=env,
+                             capture_output=True, text=True, check=True, timeout=120)
+        outs.append(run.stdout)
+    assert outs[0] == outs[1]
+    assert "share one mesh edge" in outs[0]

@@ -292,3 +292,27 @@ def test_any_malformed_case_gives_design_error_not_a_crash(raw):
         parse_loads(design, [plate])
     except DesignError as exc:
         assert exc.problems and all(p.path.startswith("load_cases[0]") for p in exc.problems)
+
+
+def test_mesh_finer_than_estimated_is_refused_after_meshing():
+    # Small holes make the mesher refine locally, beyond the uniform estimate
+    # 2 A / (sqrt(3) h^2) vertices (node density of equilateral triangles of side h): the
+    # mesher's refined estimate (or the actual count) is checked against the limit too.
+    from plate_factory import round_hole
+
+    from platewright.fea.analysis import BYTES_PER_DOF, analyse_plate
+
+    holes = tuple(round_hole(f"h{i}", (x, y), 2.0) for i, (x, y) in
+                  enumerate([(-30, -30), (30, -30), (-30, 30), (30, 30)]))
+    plate = make_plate(rect_contour(100, 100), holes, name="sheet")
+    design = SimpleNamespace(load_cases=[{"name": "c", "plate": "sheet", "family": "bending",
+                                          "supports": [{"at": "edge", "condition": "pinned"}]}],
+                             components=[], references={}, line_of=lambda _p: None)
+    cases = parse_loads(design, [plate]).cases
+    area = 100 * 100 - 4 * math.pi
+    uniform = 2 * area / (math.sqrt(3) * 10.0**2) * 3 * BYTES_PER_DOF
+    with pytest.raises(DesignError) as info:
+        analyse_plate(plate, cases, size_mm=10.0, memory_limit_bytes=int(1.2 * uniform))
+    (p,) = info.value.problems
+    assert p.path == "load_cases[0].mesh_size_mm"
+    assert "nodes" in p.message and "MB" in p.message and "mesh_size_mm" in p.hint

@@ -13,6 +13,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 import shapely
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from scipy.spatial import Delaunay
 from shapely.geometry import Point, box
 
@@ -203,6 +205,65 @@ def test_min_angle(make) -> None:
     assert q.count_below_20_deg == 0
 
 
+def test_corner_angles_and_acute_tip() -> None:
+    # A plate with a 15 degree tip: no triangle at the tip can have a smallest angle above 15
+    # degrees (the triangle's angle there is at most the corner's), so the mesh reports it.
+    tip = math.radians(15.0)
+    poly = shapely.Polygon([(0, 0), (80, 0), (80, 80 * math.tan(tip))])
+    mesh = mesh_polygon(poly, 4.0)
+    _check_valid(mesh)
+    corner = mesh.corner_angles_deg()
+    at_tip = int(np.argmin(np.hypot(*mesh.nodes.T)))
+    # Closed form: the polygon's vertex angles are 15, 90 and 75 degrees.
+    assert corner[at_tip] == pytest.approx(15.0, abs=1e-9)
+    assert mesh.quality().min_angle_deg <= 15.0 + 1e-9
+    # Interior nodes are surrounded by a full turn, boundary nodes on straight edges by half.
+    bnd = np.unique(mesh.boundary_edges)
+    inner = np.setdiff1d(np.arange(len(mesh.nodes)), bnd)
+    assert corner[inner] == pytest.approx(360.0)
+    # Away from the tip (beyond 10 mm) the usual target holds.
+    far = mesh.nodes[mesh.triangles].mean(axis=1)
+    keep = np.hypot(*far.T) > 10.0
+    assert triangle_angles_deg(mesh.nodes, mesh.triangles[keep]).min() >= MIN_ANGLE_DEG
+
+
+@st.composite
+def _layouts(draw):
+    """A rectangle with up to 6 round holes kept 1 mm clear of each other and of the edges."""
+    w = draw(st.floats(40.0, 160.0))
+    h = draw(st.floats(30.0, 120.0))
+    holes: list[shapely.Polygon] = []
+    poly = box(0.0, 0.0, w, h)
+    for _ in range(draw(st.integers(0, 6))):
+        r = draw(st.floats(0.8, 10.0))
+        x = draw(st.floats(0.0, 1.0))
+        y = draw(st.floats(0.0, 1.0))
+        segs = draw(st.integers(2, 16))
+        cx = r + 1.0 + x * max(w - 2 * r - 2.0, 0.0)
+        cy = r + 1.0 + y * max(h - 2 * r - 2.0, 0.0)
+        d = Point(cx, cy).buffer(r, quad_segs=segs)
+        if cx + r + 1.0 > w or cy + r + 1.0 > h or any(d.distance(o) < 1.0 for o in holes):
+            continue
+        holes.append(d)
+        poly = poly.difference(d)
+    return poly, draw(st.floats(1.0, 10.0))
+
+
+@settings(max_examples=10, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow])
+@given(_layouts())
+def test_random_layouts_valid_and_above_target(layout) -> None:
+    poly, size = layout
+    mesh = mesh_polygon(poly, size)
+    _check_valid(mesh)
+    # shapely area (reference) and the common-practice angle target: with holes at least 1 mm
+    # apart and no input corner below 90 degrees the geometry allows it everywhere.
+    assert mesh.area_mm2() == pytest.approx(poly.area, rel=1e-10)
+    v, e, f = len(mesh.nodes), len(_undirected_edges(mesh.triangles)), len(mesh.triangles)
+    assert v - e + f == 1 - len(poly.interiors)  # Euler's formula, as above
+    assert mesh.quality().min_angle_deg >= MIN_ANGLE_DEG
+
+
 def test_narrow_web_gets_two_elements_across() -> None:
     mesh = mesh_polygon(_web_plate(), 5.0)
     # The web between the holes is 1.5 mm wide at y = 20 (closed form: 9.5 - 2 * 4). A line
@@ -229,6 +290,22 @@ def test_narrow_web_between_straight_sided_holes() -> None:
     for y in (16.013, 20.013, 24.013):
         across = shapely.LineString([(19.99, y), (21.51, y)])
         assert (shapely.length(shapely.intersection(tris, across)) > 1e-6).sum() >= 2
+
+
+def test_boundary_recovery_when_refinement_is_off() -> None:
+    # min_size_mm = size_mm turns the feature refinement off, so the 0.5 mm web between the two
+    # rectangular holes keeps 5 mm boundary edges whose diametral circles hold nodes of the
+    # other hole: segments go missing from the first Delaunay triangulation and must be
+    # recovered by splitting. The mesh must still conform to every input segment.
+    poly = box(0, 0, 60, 40).difference(box(10, 15, 20, 25)).difference(box(20.5, 12.5, 30.5, 27.5))
+    mesh = mesh_polygon(poly, 5.0, min_size_mm=5.0)
+    _check_valid(mesh)
+    assert mesh.area_mm2() == pytest.approx(poly.area, rel=1e-10)  # shapely area, reference
+    ends = mesh.nodes[mesh.boundary_edges]
+    # Every boundary edge lies on the input boundary (shapely distance, reference library).
+    assert shapely.distance(poly.boundary, shapely.points(ends.reshape(-1, 2))).max() < 1e-9
+    # The edges cover the boundary length exactly once (shapely length).
+    assert np.hypot(*(ends[:, 1] - ends[:, 0]).T).sum() == pytest.approx(poly.boundary.length)
 
 
 def test_quality_measures_of_known_triangles() -> None:
@@ -398,6 +475,23 @@ def test_plate_mesh_area_and_merged_tags() -> None:
     # by at most (perimeter x largest sagitta) per hole; sagitta <= s / 50 with s <= size.
     perim = 2 * math.pi * 11 + (2 * 30 + 2 * math.pi * 2.5) + 2 * 2 * math.pi * r
     assert 0.0 <= mesh.area_mm2() - exact <= perim * size / 50.0
+
+
+def test_tangent_holes_are_merged() -> None:
+    # Two d = 6 holes whose centres are exactly 6 mm apart touch at one point: they become one
+    # ring tagged with both ids.
+    plate = make_plate(
+        rect_contour(80.0, 50.0),
+        (round_hole("aft_pin", (-3.0, 0.0), 6.0), round_hole("fore_pin", (3.0, 0.0), 6.0)),
+    )
+    rings = plate_rings(plate, 4.0)
+    assert [r.tag for r in rings] == ["outline", "aft_pin+fore_pin"]
+    mesh = mesh_rings(rings, 4.0)
+    _check_valid(mesh)
+    assert mesh.tag_names == ("outline", "aft_pin+fore_pin")
+    # Closed form: rectangle minus two circles of radius 3 (they share no area).
+    exact = 80 * 50 - 2 * math.pi * 9
+    assert abs(mesh.area_mm2() - exact) <= 2 * 2 * math.pi * 3 * 4.0 / 50.0
 
 
 def test_hole_cutting_outline_notches_it() -> None:
