@@ -227,6 +227,7 @@ def test_describe_schema_lists_every_field_with_unit_and_default():
             # the unit column follows the name's suffix, written out here by hand
             want = ("mm" if name.endswith("_mm") else "degrees" if name.endswith("_deg")
                     else "mm/s" if name.endswith("_mm_s") else "s" if name.endswith("_s")
+                    else "g" if name.endswith("_g")
                     else "-")
             assert want in units, (name, units)
             assert all(r[3].strip() for r in rows[name]), name  # a meaning for every row
