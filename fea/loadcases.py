@@ -263,7 +263,8 @@ class _Spec:
 
 
 _REGION_KEYS = ("x_min", "x_max", "y_min", "y_max")
-_REGION_DOC = "box {x_min, x_max, y_min, y_max} in mm selecting part of it (sides may be left open)"
+_REGION_DOC = ("box {`x_min`, `x_max`, `y_min`, `y_max`} in mm selecting part of it "
+               "(sides may be left open)")
 
 _COMPONENT = {
     "id": _Spec("text", "name used by `{type: component}` loads", required=True),
