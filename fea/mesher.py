@@ -502,7 +502,13 @@ def _interior_nodes(
 ) -> np.ndarray:
     """Lattice nodes inside the region, kept clear of the boundary: (p, 2) float, mm."""
     bbox = tuple(float(v) for v in reg.polygon.bounds)
-    pts = graded_lattice(bbox, field, field.max_size_mm, field.min_size_mm)
+    pts = graded_lattice(
+        bbox,
+        lambda xy: field(xy, cap_mm=2.0 * field.max_size_mm),
+        field.max_size_mm,
+        field.min_size_mm,
+        field.grading,
+    )
     inside = shapely.contains_xy(reg.polygon, pts[:, 0], pts[:, 1])
     pts = pts[inside]
     if len(pts) == 0:

@@ -153,25 +153,30 @@ class SizeField:
         pts = np.asarray(points_mm, dtype=float).reshape(-1, 2)
         small = sizes < self.max_size_mm * (1.0 - 1e-12)
         pts, sizes = pts[small], sizes[small]
-        self._bands: list[tuple[cKDTree, np.ndarray, float]] = []
+        self._bands: list[tuple[cKDTree, np.ndarray, float]] = []  # tree, sizes, smallest
         if len(sizes):
             level = _size_bands(sizes, self.min_size_mm)
             for lev in np.unique(level):
                 sel = level == lev
                 s = sizes[sel]
-                reach = (self.max_size_mm - s.min()) / self.grading
-                self._bands.append((cKDTree(pts[sel]), s, reach))
+                self._bands.append((cKDTree(pts[sel]), s, float(s.min())))
 
     @property
     def is_uniform(self) -> bool:
         """True when no boundary sample asks for less than the maximum size."""
         return not self._bands
 
-    def __call__(self, xy_mm: np.ndarray) -> np.ndarray:
-        """Size at points: (m, 2) float mm -> (m,) float mm."""
+    def __call__(self, xy_mm: np.ndarray, cap_mm: float | None = None) -> np.ndarray:
+        """Size at points: (m, 2) float mm -> (m,) float mm.
+
+        ``cap_mm`` (default ``max_size_mm``) is the upper clip; a larger cap shows how far a point
+        is from needing refinement (used by :func:`graded_lattice`).
+        """
+        cap = self.max_size_mm if cap_mm is None else float(cap_mm)
         xy = np.asarray(xy_mm, dtype=float).reshape(-1, 2)
-        out = np.full(len(xy), self.max_size_mm)
-        for tree, s, reach in self._bands:
+        out = np.full(len(xy), cap)
+        for tree, s, s_min in self._bands:
+            reach = (cap - s_min) / self.grading
             k = min(self._K, len(s))
             d, idx = tree.query(xy, k=k, distance_upper_bound=reach)
             d = d.reshape(len(xy), k)
@@ -179,7 +184,7 @@ class SizeField:
             found = idx < len(s)
             val = np.where(found, s[np.minimum(idx, len(s) - 1)] + self.grading * d, np.inf)
             np.minimum(out, val.min(axis=1), out=out)
-        return np.clip(out, self.min_size_mm, self.max_size_mm)
+        return np.clip(out, self.min_size_mm, cap)
 
 
 def _piece_sizes(
@@ -254,8 +259,6 @@ def estimate_node_count(
 #: The six lattice-neighbour directions in (i, k) lattice coordinates (basis a1 = (s, 0),
 #: a2 = (s / 2, s sqrt(3) / 2)).
 _DIRS = np.array([[1, 0], [-1, 0], [0, 1], [0, -1], [1, -1], [-1, 1]], dtype=np.int64)
-#: Level-j lattice nodes farther than this (in levels) from needing level j+1 spawn no children.
-_LEVEL_MARGIN = 1.0
 _MAX_LEVELS = 24
 
 
@@ -294,10 +297,14 @@ def graded_lattice(
     size_fn: Callable[[np.ndarray], np.ndarray],
     max_size_mm: float,
     min_size_mm: float,
+    grading: float = 0.3,
 ) -> np.ndarray:
     """Points covering ``bbox_mm`` (xmin, ymin, xmax, ymax) with spacing following ``size_fn``.
 
-    ``size_fn``: (m, 2) float mm -> (m,) float mm, values in [min_size_mm, max_size_mm].
+    ``size_fn``: (m, 2) float mm -> (m,) float mm, at least ``min_size_mm``; values above
+    ``max_size_mm`` are allowed (they mean "no refinement near here" and save work).
+    ``grading``: the largest growth rate of the size (mm per mm), which bounds how much the
+    size can differ between a lattice node and the new nodes half a spacing away.
     Returns (p, 2) float, mm, covering the box grown by ``max_size_mm`` (callers clip to the
     region).
     """
@@ -316,10 +323,14 @@ def graded_lattice(
         [(c * step0).ravel(), np.repeat(rows * step0, ncols)]
     ).astype(np.int64)
     lam = np.log2(h0 / size_fn(_xy(ik, origin, s_fine)))
+    # A new node half a spacing s from its parents has a size at most (1 + grading / 2) times
+    # smaller than theirs, so parents more than that (in levels) from needing refinement spawn
+    # none that would be kept.
+    margin = math.log2(1.0 + grading) + 0.05
     kept = [ik]
     cur, cur_lam = ik, lam
     for j in range(levels):
-        parents = cur[cur_lam > j - _LEVEL_MARGIN]
+        parents = cur[cur_lam > j - margin]
         if len(parents) == 0:
             break
         half = 1 << (levels - j - 1)
@@ -332,6 +343,6 @@ def graded_lattice(
         kept.append(cand[keep])
         nxt = np.concatenate([cur, cand])
         nxt_lam = np.concatenate([cur_lam, cand_lam])
-        sel = nxt_lam > (j + 1) - _LEVEL_MARGIN
+        sel = nxt_lam > (j + 1) - margin
         cur, cur_lam = nxt[sel], nxt_lam[sel]
     return _xy(np.concatenate(kept), origin, s_fine)

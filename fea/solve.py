@@ -258,6 +258,7 @@ def _solve_amg(
         B=np.ascontiguousarray(near_null),
         symmetry="hermitian",
         smooth=("jacobi", {"omega": 4.0 / 3.0, "weighting": "local"}),
+        improve_candidates=None,  # the rigid-body modes are exact null vectors already
         max_coarse=300,
         coarse_solver="splu",
     )
