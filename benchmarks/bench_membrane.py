@@ -10,12 +10,15 @@ Mises) and reports wall times and its peak resident memory; a second child assem
 the SAME mesh with scikit-fem (its assemble + condense + default solve), up to --skfem-max
 unknowns. The table prints the time ratio scikit-fem / platewright for assembly + solve.
 Each child is a fresh process, so peak memory (ru_maxrss) belongs to that run alone.
+Both children get the same BLAS thread count (--blas-threads, default 1: on a small shared
+machine threaded BLAS was measured several times slower than one thread).
 """
 
 from __future__ import annotations
 
 import argparse
 import json
+import os
 import resource
 import subprocess
 import sys
@@ -113,9 +116,13 @@ def run_skfem(unknowns: int) -> dict:
     return out
 
 
-def _child(kind: str, unknowns: int) -> dict:
+def _child(kind: str, unknowns: int, blas_threads: int) -> dict:
     cmd = [sys.executable, __file__, "--child", kind, str(unknowns)]
-    res = subprocess.run(cmd, capture_output=True, text=True, check=False)
+    env = dict(os.environ)
+    if blas_threads > 0:
+        for var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+            env[var] = str(blas_threads)
+    res = subprocess.run(cmd, capture_output=True, text=True, check=False, env=env)
     if res.returncode != 0:
         return {"error": res.stderr.strip().splitlines()[-1] if res.stderr else "failed"}
     return json.loads(res.stdout.strip().splitlines()[-1])
@@ -126,6 +133,8 @@ def main() -> None:
     ap.add_argument("--sizes", type=int, nargs="*",
                     default=[10_000, 50_000, 200_000, 500_000, 1_000_000])
     ap.add_argument("--skfem-max", type=int, default=250_000)
+    ap.add_argument("--blas-threads", type=int, default=1,
+                    help="BLAS threads in both children (0: leave the environment alone)")
     ap.add_argument("--child", nargs=2, help=argparse.SUPPRESS)
     args = ap.parse_args()
     if args.child:
@@ -138,7 +147,7 @@ def main() -> None:
     print(head)
     print("-" * len(head))
     for n in args.sizes:
-        pw = _child("pw", n)
+        pw = _child("pw", n, args.blas_threads)
         if "error" in pw:
             print(f"{n:>9} platewright failed: {pw['error']}")
             continue
@@ -146,7 +155,7 @@ def main() -> None:
                 f"{pw['assemble_s']:>7.2f} {pw['solve_s']:>8.2f} {pw['stress_s']:>8.2f} "
                 f"{pw['peak_mb']:>8.0f} |")
         if n <= args.skfem_max:
-            sk = _child("sk", n)
+            sk = _child("sk", n, args.blas_threads)
             if "error" in sk:
                 line += f" skfem failed: {sk['error']}"
             else:
