@@ -20,6 +20,7 @@ Method (a conforming Delaunay mesher with distmesh smoothing):
    nodes have moved far (boundary edges are never flipped, so the mesh stays conforming);
 6. a short optimisation-based clean-up of the interior corners of triangles still below 20
    degrees (moves accepted only when the worst angle around the node improves).
+   Steps 5 and 6 are :func:`.smoothing.smooth_interior`.
 
 Where the geometry itself forbids 20 degrees (an input corner sharper than that, an input
 segment or web far below ``min_size_mm``) the mesh is still valid and conforming; the corner
@@ -38,24 +39,14 @@ import numpy as np
 import shapely
 from scipy.spatial import Delaunay, cKDTree
 
-from .mesh import Mesh, flip_to_delaunay, triangle_angles_deg, triangle_areas_mm2
+from .mesh import Mesh, triangle_areas_mm2
 from .sizing import SizeField, boundary_size_field, graded_lattice
+from .smoothing import smooth_interior
 
 __all__ = ["TaggedRing", "mesh_rings", "mesh_polygon", "default_size_mm"]
 
 #: Interior lattice nodes closer to the boundary than this many local sizes are dropped.
 _BOUNDARY_GAP = 0.55
-#: distmesh constants (Persson and Strang 2004): internal pressure, step, retriangulation
-#: trigger (in local sizes), iterations.
-_FSCALE = 1.2
-_DELTAT = 0.2
-_RETRI_TOL = 0.3
-_MAX_STEP = 0.1
-_SMOOTH_ITERS = 25
-_SETTLED_TOL = 1e-3
-#: Angle target of the clean-up pass, degrees, and its number of rounds.
-_ANGLE_TARGET_DEG = 20.0
-_CLEANUP_ROUNDS = 8
 _RECOVERY_ROUNDS = 30
 #: Default element size as a fraction of the bounding-box diagonal, and default smallest size
 #: as a fraction of the element size.
@@ -198,14 +189,6 @@ def _dense_boundary(nodes: np.ndarray, segs: np.ndarray, per_edge: int = 4) -> n
     return (a[:, None, :] + t[None, :, None] * d[:, None, :]).reshape(-1, 2)
 
 
-def _unique_int(a: np.ndarray) -> np.ndarray:
-    """Sorted unique values of an int array (a sort is faster here than np.unique's hashing)."""
-    s = np.sort(a, axis=None)
-    if len(s) == 0:
-        return s
-    return s[np.concatenate([[True], s[1:] != s[:-1]])]
-
-
 def _isin_int(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Boolean mask: which entries of int array ``a`` occur in int array ``b``."""
     s = np.sort(b)
@@ -300,199 +283,19 @@ class _Work:
         self.tags = np.concatenate([self.tags, self.tags[which]])
 
 
-def _unique_bars(tri: np.ndarray) -> np.ndarray:
-    e = np.vstack([tri[:, [0, 1]], tri[:, [1, 2]], tri[:, [2, 0]]])
-    e.sort(axis=1)
-    n = int(tri.max()) + 1
-    key = _unique_int(e[:, 0] * n + e[:, 1])
-    return np.column_stack([key // n, key % n])
+def _recover_and_smooth(work: _Work, reg: _Region, field: SizeField) -> np.ndarray:
+    """Boundary recovery, then smoothing of the interior nodes; returns the inside triangles.
 
-
-def _untangle(p: np.ndarray, p_ok: np.ndarray, tri: np.ndarray) -> np.ndarray:
-    """Move the corners of inverted triangles back to their last valid positions."""
-    for _ in range(50):
-        bad = triangle_areas_mm2(p, tri) <= 0.0
-        if not bad.any():
-            return p
-        back = _unique_int(tri[bad])
-        p[back] = p_ok[back]
-    return p_ok.copy()
-
-
-def _bar_forces(p: np.ndarray, bars: np.ndarray, h: np.ndarray, scale: float) -> np.ndarray:
-    """distmesh node forces: repulsive bars of rest length scale * h, summed per node (n, 2)."""
-    vec = p[bars[:, 0]] - p[bars[:, 1]]
-    length = np.hypot(vec[:, 0], vec[:, 1])
-    hbar = 0.5 * (h[bars[:, 0]] + h[bars[:, 1]])
-    force = np.maximum(scale * hbar - length, 0.0) / length
-    n = len(p)
-    ftot = np.empty((n, 2))
-    for c in range(2):
-        f = force * vec[:, c]
-        ftot[:, c] = np.bincount(bars[:, 0], f, n) - np.bincount(bars[:, 1], f, n)
-    return ftot
-
-
-def _grow(mask: np.ndarray, bars: np.ndarray, rings: int) -> np.ndarray:
-    """Node mask grown by ``rings`` layers of bar neighbours."""
-    m = mask.copy()
-    for _ in range(rings):
-        hit = m[bars[:, 0]] | m[bars[:, 1]]
-        m[bars[hit].ravel()] = True
-    return m
-
-
-def _worst_with(p: np.ndarray, tri: np.ndarray, pv: np.ndarray, pt: np.ndarray,
-                new: np.ndarray, n: int) -> np.ndarray:
-    """Smallest angle at each node of ``pv`` (pairs ``pv``/``pt``: node, incident triangle) with
-    the nodes placed at ``new`` ((n, 2), only rows of ``pv`` used): (n,) float degrees."""
-    corners = p[tri[pt]]
-    own = tri[pt] == pv[:, None]
-    corners[own] = new[pv]
-    a = corners[:, 1] - corners[:, 0]
-    b = corners[:, 2] - corners[:, 0]
-    area2 = a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0]
-    sub = np.arange(3)[None, :].repeat(len(pt), axis=0)
-    ang = triangle_angles_deg(corners.reshape(-1, 2), sub + 3 * np.arange(len(pt))[:, None])
-    tmin = np.where(area2 > 0.0, ang.min(axis=1), -1.0)
-    worst = np.full(n, 360.0)
-    np.minimum.at(worst, pv, tmin)
-    return worst
-
-
-def _clean_up(p: np.ndarray, tri: np.ndarray, nb: int) -> tuple[np.ndarray, np.ndarray]:
-    """Optimisation-based smoothing of the interior corners of triangles below the target angle.
-
-    Each such node tries positions a quarter, half, three quarters and all the way towards the
-    centroid of its neighbours and towards the apex of the equilateral triangle on the opposite
-    edge of its worst triangle, and takes the one with the largest smallest angle around it,
-    if that beats the current one (smoothing accepted only when the local quality improves:
-    L. A. Freitag and C. Ollivier-Gooch, IJNME 40 (1997) 3979-4002). Nodes sharing a triangle
-    never move in the same round. Edges are flipped back to Delaunay after each round.
+    Recovery may split boundary segments and drop interior nodes; the smoothed interior nodes
+    are written back to ``work.inner``.
     """
-    n = len(p)
-    m = len(tri)
-    pv_all = tri.ravel()
-    pt_all = np.repeat(np.arange(m), 3)
-    for _ in range(_CLEANUP_ROUNDS):
-        tmin = triangle_angles_deg(p, tri).min(axis=1)
-        bad = tmin < _ANGLE_TARGET_DEG
-        if not bad.any():
-            break
-        cand = np.zeros(n, dtype=bool)
-        cand[tri[bad].ravel()] = True
-        cand[:nb] = False
-        if not cand.any():
-            break
-        pv_all = tri.ravel()
-        sel = cand[pv_all]
-        pv, pt = pv_all[sel], pt_all[sel]
-        # Worst incident triangle of each candidate and its edge opposite the node.
-        worst_t = np.full(n, -1, dtype=np.int64)
-        order = np.lexsort((-tmin[pt], pv))  # per node, worst triangle last
-        last = np.concatenate([pv[order][1:] != pv[order][:-1], [True]])
-        worst_t[pv[order][last]] = pt[order][last]
-        idx = np.flatnonzero(cand)
-        wt = tri[worst_t[idx]]
-        k = np.argmax(wt == idx[:, None], axis=1)
-        ea = p[wt[np.arange(len(idx)), (k + 1) % 3]]
-        eb = p[wt[np.arange(len(idx)), (k + 2) % 3]]
-        d = eb - ea
-        apex = 0.5 * (ea + eb) + (math.sqrt(3.0) / 2.0) * np.column_stack([-d[:, 1], d[:, 0]])
-        bars = _unique_bars(tri)
-        deg = np.bincount(bars.ravel(), minlength=n).astype(float)
-        cen = np.empty((n, 2))
-        for c in range(2):
-            cen[:, c] = (np.bincount(bars[:, 0], p[bars[:, 1], c], n)
-                         + np.bincount(bars[:, 1], p[bars[:, 0], c], n)) / np.maximum(deg, 1.0)
-        best = _worst_with(p, tri, pv, pt, p, n)
-        best_pos = p.copy()
-        for target in (cen[idx], apex):
-            for t in (0.25, 0.5, 0.75, 1.0):
-                trial = p.copy()
-                trial[idx] = p[idx] + t * (target - p[idx])
-                w = _worst_with(p, tri, pv, pt, trial, n)
-                better = w > best + 1e-9
-                best = np.where(better, w, best)
-                best_pos[better] = trial[better]
-        moving = cand & (best_pos != p).any(axis=1)
-        if not moving.any():
-            break
-        # Independent set: a node moves only if it has the lowest index among moving nodes in
-        # every triangle around it.
-        low = np.full(m, n, dtype=np.int64)
-        np.minimum.at(low, pt, np.where(moving[pv], pv, n))
-        ok = np.ones(n, dtype=bool)
-        np.logical_and.at(ok, pv, low[pt] == pv)
-        go = moving & ok
-        p = p.copy()
-        p[go] = best_pos[go]
-        tri = flip_to_delaunay(p, tri)
-    return p, tri
-
-
-def _smooth(work: _Work, reg: _Region, field: SizeField) -> np.ndarray:
-    """distmesh truss-force smoothing of the interior nodes; returns the inside triangles.
-
-    The first triangulation comes from Qhull with boundary recovery; after that the connectivity
-    is made Delaunay again by edge flips (:func:`.mesh.flip_to_delaunay`) whenever nodes have
-    moved ``_RETRI_TOL`` local sizes, which keeps every boundary edge in place. Each stage
-    between flips moves only the nodes that feel a force at its start (and two rings of their
-    neighbours); lattice nodes in balance stay put. Bar rest lengths use the distmesh scaling
-    ``_FSCALE * h * sqrt(sum L^2 / sum h^2)`` over all bars.
-    """
-    poly = reg.polygon
-    tri_all = work.recover()  # may split boundary segments and drop interior nodes
-    tri = _inside_triangles(work.nodes, tri_all, poly)
+    tri_all = work.recover()
+    tri = _inside_triangles(work.nodes, tri_all, reg.polygon)
     nb = len(work.bnodes)
-    p = work.nodes
     if len(work.inner) == 0:
         return tri
-    btree = cKDTree(_dense_boundary(work.bnodes, work.segs))
-    iters = 0
-    h = field(p)
-    nodes_free = np.zeros(0, dtype=np.int64)
-    while iters < _SMOOTH_ITERS:
-        if len(nodes_free):
-            h[nodes_free] = field(p[nodes_free])
-        cap = _MAX_STEP * h
-        bars = _unique_bars(tri)
-        length = np.hypot(*(p[bars[:, 0]] - p[bars[:, 1]]).T)
-        hbar = 0.5 * (h[bars[:, 0]] + h[bars[:, 1]])
-        scale = _FSCALE * math.sqrt(np.sum(length**2) / np.sum(hbar**2))
-        step = _DELTAT * _bar_forces(p, bars, h, scale)
-        step[:nb] = 0.0
-        free = _grow(np.hypot(*step.T) > _SETTLED_TOL * h, bars, 2)
-        free[:nb] = False
-        if not free.any():
-            break
-        sub = bars[free[bars[:, 0]] | free[bars[:, 1]]]
-        nodes_free = np.flatnonzero(free)
-        p_tri = p.copy()
-        db, _ = btree.query(p[nodes_free])
-        near = nodes_free[db < 1.5 * h[nodes_free]]
-        while iters < _SMOOTH_ITERS:
-            if iters > 0 or len(sub) != len(bars):
-                step = _DELTAT * _bar_forces(p, sub, h, scale)
-            step[~free] = 0.0
-            mag = np.hypot(step[:, 0], step[:, 1])
-            step *= np.where(mag > cap, cap / np.maximum(mag, 1e-300), 1.0)[:, None]
-            new = p + step
-            if len(near):
-                q = new[near]
-                dq, _ = btree.query(q)
-                bad = (dq < 0.3 * h[near]) | ~shapely.contains_xy(poly, q[:, 0], q[:, 1])
-                new[near[bad]] = p[near[bad]]
-            p = new
-            iters += 1
-            if (np.hypot(*(p - p_tri).T) / h).max() > _RETRI_TOL:
-                break
-        p = _untangle(p, p_tri, tri)
-        moved = _grow(np.hypot(*(p - p_tri).T) > 0.0, bars, 1)
-        sel = moved[tri].any(axis=1)
-        tri[sel] = flip_to_delaunay(p, tri[sel])
-    tri = flip_to_delaunay(p, tri)
-    p, tri = _clean_up(p, tri, nb)
+    p, tri = smooth_interior(work.nodes, tri, nb, _dense_boundary(work.bnodes, work.segs),
+                             reg.polygon, field)
     work.inner = p[nb:]
     return tri
 
@@ -609,7 +412,7 @@ def mesh_rings(
             )
     inner = _interior_nodes(reg, field, bnodes, segs)
     work = _Work(bnodes, segs, tags, inner)
-    tri = _smooth(work, reg, field)
+    tri = _recover_and_smooth(work, reg, field)
     return _finish(work, tri, reg.tag_names)
 
 
