@@ -8,6 +8,7 @@ plane-strain matrix: thin laser-cut plates are free to contract through their th
 from __future__ import annotations
 
 import numpy as np
+
 from platewright.geometry.model import Material
 
 __all__ = [

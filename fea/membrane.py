@@ -98,20 +98,20 @@ def _geometry(nodes: np.ndarray, conn: np.ndarray) -> tuple[np.ndarray, np.ndarr
     return inv, det
 
 
-def _b_matrices(nodes: np.ndarray, conn: np.ndarray, points: np.ndarray):
-    """Strain-displacement matrices (m, p, 3, 2k) at reference points, and det J (m,)."""
+#: Voigt selection S[i, c, l]: strain component i collects du_c/dx_l (engineering shear).
+_VOIGT = np.zeros((3, 2, 2))
+_VOIGT[0, 0, 0] = _VOIGT[1, 1, 1] = _VOIGT[2, 0, 1] = _VOIGT[2, 1, 0] = 1.0
+
+
+def _gradients(nodes: np.ndarray, conn: np.ndarray, points: np.ndarray):
+    """Shape-function gradients dN/dx (m, p, k, 2) at reference points, and det J (m,)."""
     k = conn.shape[1]
     inv, det = _geometry(nodes, conn)
     _, dn_ref = shape_functions(k, points)  # (p, k, 2)
     # dN/dx_j = sum_i dN/dxi_i * dxi_i/dx_j ; inv[e, i, j] = dxi_i / dx_j
-    dn = np.einsum("pki,eij->epkj", dn_ref, inv)  # (m, p, k, 2)
-    m, p = dn.shape[0], dn.shape[1]
-    b = np.zeros((m, p, 3, 2 * k))
-    b[:, :, 0, 0::2] = dn[..., 0]
-    b[:, :, 1, 1::2] = dn[..., 1]
-    b[:, :, 2, 0::2] = dn[..., 1]
-    b[:, :, 2, 1::2] = dn[..., 0]
-    return b, det
+    grad = dn_ref[None, :, :, 0, None] * inv[:, None, None, 0, :]
+    grad += dn_ref[None, :, :, 1, None] * inv[:, None, None, 1, :]
+    return grad, det
 
 
 def _per_element(value: float | np.ndarray, m: int, name: str) -> np.ndarray:
@@ -133,18 +133,37 @@ def stiffness_matrices(
     K_e = t sum_q w_q det J B_q^T D B_q.
     """
     conn = np.asarray(conn)
-    pts, w = gauss_points(conn.shape[1])
-    b, det = _b_matrices(nodes, conn, pts)
-    t = _per_element(thickness_mm, conn.shape[0], "thickness_mm")
+    m, k = conn.shape
+    pts, w = gauss_points(k)
+    grad, det = _gradients(nodes, conn, pts)  # (m, q, k, 2)
+    t = _per_element(thickness_mm, m, "thickness_mm")
     d = np.asarray(d_mpa, dtype=float)
-    scale = t * det  # (m,)
+    # K[a c, b d] = sum_q w_q t det J sum_{l n} dN_a/dx_l E[c l d n] dN_b/dx_n, where
+    # E[c l d n] = sum_ij S[i c l] D[i j] S[j d n] is D in tensor form (S picks Voigt rows).
+    ws = (t * det)[:, None] * w[None, :]  # (m, q)
+    g = [grad[..., 0], grad[..., 1]]  # dN/dx, dN/dy: (m, q, k) each
+    h = {
+        (l, n): np.einsum("eqa,eqb->eab", g[l] * ws[:, :, None], g[n])
+        for l in range(2)
+        for n in range(2)
+    }  # four (m, k, k) blocks, not a loop over elements
     if d.ndim == 2:
-        db = np.einsum("ij,epjk->epik", d, b)
+        e4 = np.einsum("icl,ij,jdn->cldn", _VOIGT, d, _VOIGT)
     else:
-        db = np.einsum("eij,epjk->epik", d, b)
-    m, q, _, kk = b.shape
-    bw = (b * (scale[:, None] * w[None, :])[:, :, None, None]).reshape(m, 3 * q, kk)
-    return np.matmul(bw.transpose(0, 2, 1), db.reshape(m, 3 * q, kk))
+        e4 = np.einsum("icl,eij,jdn->cldne", _VOIGT, d, _VOIGT)
+    out = np.empty((m, 2 * k, 2 * k))
+    for c in range(2):
+        for dd in range(2):
+            acc = np.zeros((m, k, k))
+            for (l, n), block in h.items():
+                coef = e4[c, l, dd, n]
+                if d.ndim == 2:
+                    if coef != 0.0:
+                        acc += coef * block
+                else:
+                    acc += coef[:, None, None] * block
+            out[:, c::2, dd::2] = acc
+    return out
 
 
 def assemble_stiffness(
@@ -238,9 +257,11 @@ def element_strains(
     conn = np.asarray(conn)
     k = conn.shape[1]
     pts = NODE_POINTS[k] if points is None else np.asarray(points, dtype=float)
-    b, _ = _b_matrices(nodes, conn, pts)
-    ue = np.asarray(u, dtype=float)[element_dofs(conn, 2)]  # (m, 2k)
-    return np.einsum("epij,ej->epi", b, ue)
+    grad, _ = _gradients(nodes, conn, pts)  # (m, p, k, 2)
+    ue = np.asarray(u, dtype=float).reshape(-1, 2)[conn]  # (m, k, 2)
+    # displacement gradient G[e, p, c, j] = du_c/dx_j = sum_k u[e, k, c] dN_k/dx_j
+    g = np.matmul(ue.transpose(0, 2, 1)[:, None], grad)  # (m, p, 2, 2)
+    return np.stack([g[..., 0, 0], g[..., 1, 1], g[..., 0, 1] + g[..., 1, 0]], axis=-1)
 
 
 def element_stresses(

@@ -258,7 +258,11 @@ def _solve_amg(
         B=np.ascontiguousarray(near_null),
         symmetry="hermitian",
         smooth=("jacobi", {"omega": 4.0 / 3.0, "weighting": "local"}),
-        improve_candidates=None,  # the rigid-body modes are exact null vectors already
+        improve_candidates=None,  # rigid modes are exact null vectors of K: no need to smooth
+        # forward sweep before, backward sweep after: the V-cycle stays symmetric (the
+        # post-smoother is the adjoint of the pre-smoother) at half the cost of symmetric sweeps
+        presmoother=("gauss_seidel", {"sweep": "forward"}),
+        postsmoother=("gauss_seidel", {"sweep": "backward"}),
         max_coarse=300,
         coarse_solver="splu",
     )

@@ -6,6 +6,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import scipy.sparse as sp
+
 from platewright.fea.assembly import assemble_matrix, assemble_vector, element_dofs
 from platewright.fea.constitutive import isotropic_plane_stress
 from platewright.fea.membrane import assemble_stiffness, body_force_vector
