@@ -11,6 +11,8 @@ from platewright.geometry.build import list_templates
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.pipeline import build_design
 
+from .cmd_coupon import CouponCommand
+from .cmd_machines import MachinesCommand
 from .command_base import Command, DesignCommand
 from .outputs import staged_output
 from .terminal import build_summary
@@ -145,6 +147,7 @@ class MaterialsCommand(Command):
 
 
 COMMANDS: list[Command] = [
-    BuildCommand(), CheckCommand(), FieldsCommand(), StartersCommand(), MaterialsCommand(),
+    BuildCommand(), CheckCommand(), CouponCommand(), MachinesCommand(), FieldsCommand(),
+    StartersCommand(), MaterialsCommand(),
 ]
 

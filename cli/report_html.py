@@ -84,6 +84,53 @@ def _dimension_rows(features: list[dict[str, Any]]) -> list[list[str]]:
     return rows
 
 
+def _money(x: object, currency: str) -> str:
+    return "-" if x is None else f"{x:.2f} {_e(currency)}".strip()
+
+
+def _minutes(seconds: object) -> str:
+    return "-" if seconds is None else f"{seconds / 60.0:.1f}"
+
+
+def _cost_section(report: dict[str, Any]) -> str:
+    """Cut time and cost table (per plate, quantity 1; the job with quantities and set-up)."""
+    job = report.get("job", {}).get("cost")
+    if job is None:
+        return ""
+    rows = []
+    for p in report["plates"]:
+        c = p.get("cost")
+        if c is None:
+            continue
+        rows.append([_e(p["name"]), str(p["quantity"]), _num(c["cut_length_mm"], 0), str(c["pierces"]),
+                     _minutes(c["total_time_s"]), _money(c["machine_cost"], c["currency"]),
+                     _money(c["material_cost"], c["currency"])])
+    rng = job.get("total_time_range_s")
+    rows.append(["<strong>job</strong>", "", _num(job["cut_length_mm"], 0), str(job["pierces"]),
+                 _minutes(job["total_time_s"]), _money(job["machine_cost"], job["currency"]),
+                 _money(job["material_cost"], job["currency"])])
+    band = f"{job['quote_band'] * 100:.0f}"
+    quote = ""
+    if rng is not None:
+        quote = (f"<p>Job time about <strong>{_minutes(job['total_time_s'])} min</strong> "
+                 f"(quote ±{band} %: {_minutes(rng[0])} to {_minutes(rng[1])} min), "
+                 f"including set-up {_minutes(job['setup_time_s'])} min; total cost "
+                 f"{_money(job['total_cost'], job['currency'])}.</p>")
+    notes = "".join(f"<li>{_e(n)}</li>" for n in job.get("notes", []))
+    notes_html = f'<ul class="meta">{notes}</ul>' if notes else ""
+    return f"""
+<h2>Cut time and cost (estimate)</h2>
+<p class="meta">From the machine profile: cut length / cut speed + pierces × pierce time + rapid
+travel / rapid speed (+ set-up once per job); machine cost at the hourly rate, material cost as the
+plate's share of a stock sheet (no nesting waste). Per-plate rows are for one plate without set-up;
+the job row counts quantities. Quote ±{band} % (common practice); measure your own speeds.</p>
+{quote}
+{_table(["plate", "qty", "cut mm, one", "pierces, one", "time min, one", "machine cost, one",
+         "material cost, one"], rows)}
+{notes_html}
+"""
+
+
 def _plate_section(p: dict[str, Any], svg_markup: str, extra_html: str) -> str:
     inertia = p["inertia_g_mm2"]
     mass_rows = [
@@ -149,6 +196,7 @@ All lengths in mm, masses in g.</p>
 <p>Total mass of all plates (with quantities): <strong>{report['total_mass_g']:.2f} g</strong>.</p>
 {_table(["plate", "material", "t mm", "kerf mm", "mass g", "qty", "size mm", "errors", "warnings"],
         summary_rows, left=2)}
+{_cost_section(report)}
 {sections}
 </body></html>
 """

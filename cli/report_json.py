@@ -5,6 +5,7 @@ from __future__ import annotations
 from importlib.metadata import PackageNotFoundError, version
 from typing import Any
 
+from platewright.geometry.costing import combine_estimates, estimate_plate
 from platewright.geometry.pipeline import BuildResult, BuiltPlate
 
 __all__ = ["SCHEMA_VERSION", "tool_version", "build_report", "plate_entry"]
@@ -69,15 +70,24 @@ def plate_entry(built: BuiltPlate, files: dict[str, str]) -> dict[str, Any]:
 def build_report(result: BuildResult, files: dict[str, dict[str, str]]) -> dict[str, Any]:
     """The whole report.json document for a build; ``files[plate name]`` as in ``plate_entry``."""
     d, t = result.design, result.total
-    return {
+    estimates = [estimate_plate(b, d.machine) for b in result.plates]
+    job = combine_estimates(estimates, [max(1, b.plate.quantity) for b in result.plates],
+                            machine=d.machine, include_setup=True)
+    plates = [plate_entry(b, files.get(b.plate.name, {})) for b in result.plates]
+    for entry, est in zip(plates, estimates):
+        entry["cost"] = est.to_report()  # one plate, quantity 1, no set-up
+    report = {
         "schema_version": SCHEMA_VERSION,
         "tool": {"name": "platewright", "version": tool_version()},
         "design": {"name": d.name, "file": str(d.source_path), "sha256": d.sha256},
-        "units": {"length": "mm", "mass": "g", "force": "N", "stress": "MPa"},
+        "units": {"length": "mm", "mass": "g", "force": "N", "stress": "MPa", "time": "s"},
         "machine": {"key": d.machine.key, "name": d.machine.name,
-                    "bed_mm": [_r(v) for v in d.machine.bed_mm]},
+                    "bed_mm": None if d.machine.bed_mm is None else [_r(v) for v in d.machine.bed_mm]},
         "material_cautions": list(d.warnings),
         "total_mass_g": _r(t.mass_g),
         "total_inertia_g_mm2": {k: _r(v, 3) for k, v in t.inertia_g_mm2.items()},
-        "plates": [plate_entry(b, files.get(b.plate.name, {})) for b in result.plates],
+        "plates": plates,
+        # every plate times its quantity, plus the machine's set-up time once
+        "job": {"cost": job.to_report()},
     }
+    return report

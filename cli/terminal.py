@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from typing import Any
 
-__all__ = ["format_table", "build_summary"]
+__all__ = ["format_table", "build_summary", "cost_lines"]
 
 
 def format_table(headers: Sequence[str], rows: Sequence[Sequence[str]]) -> str:
@@ -42,6 +42,27 @@ def build_summary(report: dict[str, Any], outdir: str) -> str:
         for f in p["findings"]:
             lines.append(f"  {f['level']}: {p['name']}: {f['rule']}: {f['message']}")
     lines.extend(f"  caution: {c}" for c in report.get("material_cautions", []))
+    lines.extend(cost_lines(report))
     lines.append(f"written to {outdir} (report.html, report.json, plates/)")
     lines.append("Cut safely: fume extraction on, never unattended, no chlorine-bearing plastics.")
     return "\n".join(lines)
+
+
+def cost_lines(report: dict[str, Any]) -> list[str]:
+    """The job's cut time and cost estimate (+-20 % quote band) and its notes, as text lines."""
+    job = report.get("job", {}).get("cost")
+    if job is None:
+        return []
+    rng = job.get("total_time_range_s")
+    if rng is None:
+        text = "cut time: unknown"
+    else:
+        text = (f"cut time about {job['total_time_s'] / 60.0:.1f} min (quote "
+                f"{rng[0] / 60.0:.1f}-{rng[1] / 60.0:.1f} min, +-{job['quote_band'] * 100:.0f} %)")
+    cur = job.get("currency", "")
+    for label, key in (("machine", "machine_cost"), ("material", "material_cost")):
+        if job.get(key) is not None:
+            text += f", {label} {job[key]:.2f} {cur}".rstrip()
+    out = [f"estimate: {text}"]
+    out.extend(f"  estimate note: {n}" for n in job.get("notes", []))
+    return out

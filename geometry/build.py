@@ -27,7 +27,7 @@ from .schema import suggest
 from .tolerances import CHORD_TOL_MM
 
 __all__ = ["build_plates", "build_plate", "plate_kerf_mm", "bundled_example_path",
-           "list_templates", "OUTLINE_ID", "LABEL_ID"]
+           "list_templates", "with_measured_fits", "OUTLINE_ID", "LABEL_ID"]
 
 #: Feature id of every plate's outline, and of its engraved label.
 OUTLINE_ID = "outline"
@@ -231,7 +231,10 @@ def build_plate(design: Design, spec: PlateSpec) -> Plate:
 
 
 def build_plates(design: Design) -> list[Plate]:
-    """Every plate of ``design`` in file order; DesignError lists the problems of all plates."""
+    """Every plate of ``design`` in file order; DesignError lists the problems of all plates.
+
+    Fit allowances measured on the design's machine (its profile) override the library's."""
+    design = with_measured_fits(design)
     plates: list[Plate] = []
     problems: list[Problem] = []
     for spec in design.plates:
@@ -242,3 +245,20 @@ def build_plates(design: Design) -> list[Plate]:
     if problems:
         raise DesignError(problems, design.source_path)
     return plates
+
+
+def with_measured_fits(design: Design) -> Design:
+    """``design`` with each plate's material fit allowances (signed mm) overlaid by the measured
+    ones its machine profile holds for that material and thickness
+    (:func:`~platewright.geometry.machines.fit_allowances_for`); unchanged when it holds none.
+    Idempotent."""
+    if not design.machine.fit_allowance_by_material:
+        return design
+    plates = []
+    for spec in design.plates:
+        fits = machines.fit_allowances_for(design.machine, spec.material.key, spec.thickness_mm)
+        if fits != spec.material.fit_allowance_mm:
+            spec = dataclasses.replace(spec, material=dataclasses.replace(
+                spec.material, fit_allowance_mm=fits))
+        plates.append(spec)
+    return dataclasses.replace(design, plates=tuple(plates))

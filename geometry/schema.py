@@ -48,7 +48,7 @@ from .schema_spec import (
 from .yamlsource import LineMap, format_path
 
 __all__ = [
-    "DESIGN", "PLATE", "OUTLINE", "LABEL", "MACHINE", "FEATURE_TYPES", "FIT_CLASSES",
+    "DESIGN", "PLATE", "OUTLINE", "LABEL", "MACHINE", "FEATURE_TYPES", "FIT_CLASSES", "LIGHTENING",
     "DEFAULT_LABEL_HEIGHT_MM", "Validated",
     "validate_design", "describe_schema", "allowed_keys",
     # re-exported from .schema_spec for the modules that import them from here
@@ -187,11 +187,58 @@ MACHINE = Record("inline machine profile", {
     "cut_speed_mm_s": Field(Spec(), "cut speed by material key: list of {thickness_mm, "
                             "speed_mm_s}, " + _AS_PROFILE),
     "pierce_s": Field(Number(ge=0.0), "time per pierce, s"),
+    "pierce_s_by_material": Field(Spec(), "time per pierce by material key: list of "
+                                  "{thickness_mm, pierce_s}, " + _AS_PROFILE),
+    "setup_s": Field(Number(ge=0.0), "set-up time per job, s"),
+    "fit_allowance_mm_by_material": Field(Spec(), "measured fit allowances by material key: list "
+                                          "of {thickness_mm, press, transition, slide, clearance}, "
+                                          + _AS_PROFILE),
     "travel_mm_s": Field(Number(gt=0.0), "rapid travel speed, mm/s"),
     "hourly_rate": Field(Number(ge=0.0), "machine cost per hour in `currency`"),
     "currency": Field(Text(), "currency code of hourly_rate and prices", default=""),
     "sheets": Field(Spec(), "stock sheets: list of {material, thickness_mm, size_mm, price}"),
     "sources": Field(Spec(), "field -> where its value comes from"),
+})
+
+_OPT_MM = Number(gt=0.0, le=500.0)
+_ZONE = Record("solid zone (a box kept solid; open sides reach the plate edge)", {
+    "plate": Field(Text(word=True), "plate name (default: every plate)"),
+    "x_min_mm": Field(_MM, "left side of the box (default: open)"),
+    "x_max_mm": Field(_MM, "right side of the box (default: open)"),
+    "y_min_mm": Field(_MM, "lower side of the box (default: open)"),
+    "y_max_mm": Field(_MM, "upper side of the box (default: open)"),
+})
+#: The ``lightening:`` section read by ``platewright lighten`` (fea.design_region).
+LIGHTENING = Record("lightening (`platewright lighten`)", {
+    "style": Field(Text(("organic", "pattern", "both")), "organic: free-form holes from the "
+                   "optimised density; pattern: a regular array graded by it; both: compare",
+                   default="organic"),
+    "plates": Field(ListOf(Text(word=True)), "plates to lighten (default: every plate with "
+                    "load cases)", default=[]),
+    "edge_margin_mm": Field(_OPT_MM, "solid band along the outline (default: max(1.5 x "
+                            "thickness, min_web_mm))"),
+    "feature_ring_mm": Field(_OPT_MM, "solid ring round every feature (default: max(1.5 x "
+                             "thickness, diameter) for round holes, min_web_mm for others)"),
+    "min_web_mm": Field(_OPT_MM, "web between new holes and to every contour (default: max(2 x "
+                        "thickness, the material's min web))"),
+    "corner_radius_mm": Field(_OPT_MM, "smallest corner radius of a new hole (default: max("
+                              "thickness, 1 mm))"),
+    "min_hole_mm": Field(_OPT_MM, "smallest width of a new hole (default: max(3 x thickness, "
+                         "2 x corner_radius_mm))"),
+    "chord_tol_mm": Field(Number(gt=0.0, le=1.0), "largest distance of a hole's lines and arcs "
+                          "from the traced shape", default=0.05),
+    "solid_zones": Field(ListOf(_ZONE), "boxes kept solid (no holes)", default=[]),
+    "keep_footprints": Field(Flag(), "keep component footprints and load areas solid",
+                             default=True),
+    "pattern_shape": Field(Text(("round", "triangle", "slot")), "hole shape of the pattern "
+                           "style", default="round"),
+    "pattern_pitch_mm": Field(_OPT_MM, "lattice pitch of the pattern style (default: bounding-"
+                              "box diagonal / 12)"),
+    "mesh_size_mm": Field(_OPT_MM, "element size of the optimisation mesh (default: bounding-"
+                          "box diagonal / 45)"),
+    "max_iter": Field(Integer(1), "optimiser iterations (at most)", default=30),
+    "max_candidates": Field(Integer(1), "verified candidates per style (each one finite-"
+                            "element check of the holed plate)", default=7),
 })
 
 DESIGN = Record("design", {
@@ -200,7 +247,8 @@ DESIGN = Record("design", {
     "material": Field(Text(word=True), "material key from the library (plates may override)",
                       required=True),
     "thickness_mm": Field(Number(gt=0.0, le=50.0), "sheet thickness", required=True),
-    "machine": Field(AnyOf(Text(word=True), MACHINE), "bundled machine profile key, or an "
+    "machine": Field(AnyOf(Text(), MACHINE), "bundled machine profile key, a profile file "
+                     "(path relative to the design file; see `platewright machines`), or an "
                      "inline profile", default="example_co2_60w"),
     "kerf_mm": Field(Number(ge=0.0, le=2.0), "kerf for all plates (default: from the machine "
                      "profile for the material, else the material's typical kerf)"),
@@ -213,6 +261,8 @@ DESIGN = Record("design", {
                         "and components')", default=[]),
     "vehicle_mass_g": Field(Number(gt=0.0), "mass of the whole vehicle for collision cases, g "
                             "(default: all plates x quantity + all components)"),
+    "lightening": Field(LIGHTENING, "settings of `platewright lighten` (default: all derived "
+                        "from each plate)"),
 })
 
 
