@@ -13,6 +13,7 @@ from platewright.geometry.pipeline import build_design
 
 from .cmd_coupon import CouponCommand
 from .cmd_machines import MachinesCommand
+from .cmd_nest import NestCommand
 from .command_base import Command, DesignCommand
 from .outputs import staged_output
 from .terminal import build_summary
@@ -147,7 +148,7 @@ class MaterialsCommand(Command):
 
 
 COMMANDS: list[Command] = [
-    BuildCommand(), CheckCommand(), CouponCommand(), MachinesCommand(), FieldsCommand(),
-    StartersCommand(), MaterialsCommand(),
+    BuildCommand(), CheckCommand(), NestCommand(), CouponCommand(), MachinesCommand(),
+    FieldsCommand(), StartersCommand(), MaterialsCommand(),
 ]
 

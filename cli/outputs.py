@@ -19,14 +19,20 @@ from platewright.geometry.errors import DesignError, Problem
 __all__ = ["staged_output", "check_output_target"]
 
 
+#: The index files our commands write at the top of an output folder.
+_INDEX_FILES = ("report.json", "nest.json", "compare.json", "sweep.json")
+
+
 def _is_ours(folder: Path) -> bool:
-    """True when ``folder`` holds a report.json written by this tool."""
-    report = folder / "report.json"
-    try:
-        data = json.loads(report.read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        return False
-    return isinstance(data, dict) and data.get("tool", {}).get("name") == "platewright"
+    """True when ``folder`` holds an index file (report.json, nest.json, ...) written by this tool."""
+    for name in _INDEX_FILES:
+        try:
+            data = json.loads((folder / name).read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            continue
+        if isinstance(data, dict) and data.get("tool", {}).get("name") == "platewright":
+            return True
+    return False
 
 
 def check_output_target(outdir: Path) -> None:
@@ -37,7 +43,8 @@ def check_output_target(outdir: Path) -> None:
         raise DesignError(
             Problem(
                 "-o",
-                f"'{outdir}' is not empty and holds no platewright report.json, so it is not replaced",
+                f"'{outdir}' is not empty and holds no platewright output (report.json), "
+                "so it is not replaced",
                 hint="choose a new or empty folder, or an earlier platewright output folder",
             )
         )
