@@ -11,9 +11,11 @@ from platewright.geometry.build import list_templates
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.pipeline import build_design
 
+from .cmd_compare import CompareCommand
 from .cmd_coupon import CouponCommand
 from .cmd_machines import MachinesCommand
 from .cmd_nest import NestCommand
+from .cmd_sweep import SweepCommand
 from .command_base import Command, DesignCommand
 from .outputs import staged_output
 from .terminal import build_summary
@@ -148,7 +150,7 @@ class MaterialsCommand(Command):
 
 
 COMMANDS: list[Command] = [
-    BuildCommand(), CheckCommand(), NestCommand(), CouponCommand(), MachinesCommand(),
-    FieldsCommand(), StartersCommand(), MaterialsCommand(),
+    BuildCommand(), CheckCommand(), NestCommand(), CompareCommand(), SweepCommand(),
+    CouponCommand(), MachinesCommand(), FieldsCommand(), StartersCommand(), MaterialsCommand(),
 ]
 
