@@ -44,7 +44,7 @@ SAFE = [
 
 
 @pytest.mark.parametrize("size", sorted(ISO_273))
-@pytest.mark.parametrize("k, series", enumerate(["fine", "medium", "coarse"]))
+@pytest.mark.parametrize("k, series", list(enumerate(["fine", "medium", "coarse"])))
 def test_iso_273_table(size: str, k: int, series: str) -> None:
     # source: ISO 273:1979 table, fine / medium / coarse series
     assert clearance_hole_mm(size, series) == pytest.approx(ISO_273[size][k], abs=1e-12)
