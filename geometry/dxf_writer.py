@@ -26,6 +26,7 @@ import os
 
 import ezdxf
 import numpy as np
+from ezdxf.document import Drawing
 from ezdxf.enums import TextEntityAlignment
 
 from .curves import Contour
@@ -33,6 +34,7 @@ from .model import CutContour, Plate
 from .tolerances import MIN_SEGMENT_MM
 
 __all__ = [
+    "new_cut_document",
     "LAYER_ENGRAVE",
     "LAYER_CUT_INNER",
     "LAYER_CUT_OUTER",
@@ -108,13 +110,9 @@ def _cut_sequence(cut: list[CutContour]) -> list[CutContour]:
     return sorted(cut, key=lambda c: (c.layer != "inner", c.order))
 
 
-def write_plate_dxf(plate: Plate, cut: list[CutContour], path: str | os.PathLike) -> None:
-    """Write the plate's cut paths (mm) to a DXF R2010 file at ``path``.
-
-    plate: supplies engravings and the notes (material, thickness, kerf).
-    cut: kerf-compensated cut paths (``layer`` ``inner`` or ``outer``), e.g. from
-    ``geometry.cutpaths.cut_paths``; written inner first by ``order``, then outer.
-    """
+def new_cut_document() -> Drawing:
+    """An empty R2010 drawing in millimetres with our layers (notes layer not plotted) and our
+    XDATA application registered: the common start of every cut file we write."""
     doc = ezdxf.new("R2010", setup=False)
     doc.units = _INSUNITS_MM
     doc.header["$INSUNITS"] = _INSUNITS_MM
@@ -124,6 +122,17 @@ def write_plate_dxf(plate: Plate, cut: list[CutContour], path: str | os.PathLike
         layer = doc.layers.add(name, color=colour)
         if name == LAYER_NOTES:
             layer.dxf.plot = 0
+    return doc
+
+
+def write_plate_dxf(plate: Plate, cut: list[CutContour], path: str | os.PathLike) -> None:
+    """Write the plate's cut paths (mm) to a DXF R2010 file at ``path``.
+
+    plate: supplies engravings and the notes (material, thickness, kerf).
+    cut: kerf-compensated cut paths (``layer`` ``inner`` or ``outer``), e.g. from
+    ``geometry.cutpaths.cut_paths``; written inner first by ``order``, then outer.
+    """
+    doc = new_cut_document()
     msp = doc.modelspace()
 
     for eng in plate.engravings:

@@ -21,20 +21,16 @@ import os
 from collections.abc import Mapping
 from xml.sax.saxutils import escape, quoteattr
 
-import ezdxf
 from ezdxf.enums import TextEntityAlignment
 
 from .dxf_writer import (
-    _INSUNITS_MM,
-    _LAYERS,
-    _MEASUREMENT_METRIC,
     _NOTE_HEIGHT_MM,
     LAYER_CUT_INNER,
     LAYER_CUT_OUTER,
     LAYER_ENGRAVE,
     LAYER_NOTES,
-    XDATA_APP,
     _set_ids,
+    new_cut_document,
     polyline_vertices,
 )
 from .model import Plate
@@ -77,15 +73,7 @@ def write_sheet_dxf(sheet: NestedSheet, path: str | os.PathLike,
 
     plates: item label -> plate, for the engraved labels (none written when omitted).
     """
-    doc = ezdxf.new("R2010", setup=False)
-    doc.units = _INSUNITS_MM
-    doc.header["$INSUNITS"] = _INSUNITS_MM
-    doc.header["$MEASUREMENT"] = _MEASUREMENT_METRIC
-    doc.appids.add(XDATA_APP)
-    for name, colour in _LAYERS.items():
-        layer = doc.layers.add(name, color=colour)
-        if name == LAYER_NOTES:
-            layer.dxf.plot = 0
+    doc = new_cut_document()
     msp = doc.modelspace()
     for text, pos, height, rot, _ in _engravings(sheet, plates or {}):
         msp.add_text(text, height=height, rotation=rot,
