@@ -21,7 +21,6 @@ from platewright.geometry.errors import DesignError, Problem
 
 from .command_base import Command
 from .report_json import tool_version
-from .sweep import render_sweep_html, sweep_csv, sweep_plot_png, sweep_summary
 from .sweep_engine import (
     lighten_available,
     parse_vary,
@@ -134,6 +133,8 @@ class SweepCommand(Command):
             print(f"platewright: sweep interrupted; finished results are kept in {outdir / 'results'}"
                   "; run the same command again to resume", file=sys.stderr)
             return 130
+        from .sweep import render_sweep_html, sweep_csv, sweep_plot_png, sweep_summary  # matplotlib
+
         rows = list(outcome.rows)
         (outdir / "plots").mkdir(exist_ok=True)
         png = sweep_plot_png(paths, rows)

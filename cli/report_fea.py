@@ -10,7 +10,6 @@ import html
 from pathlib import Path
 from typing import Any
 
-from platewright.fea.plots import plot_case
 from platewright.fea.results import ESTIMATE_NOTE, PlateAnalysis
 
 from .terminal import format_table
@@ -25,6 +24,8 @@ def _fmt(x: Any, spec: str = ".3g") -> str:
 def write_plots(analysis: PlateAnalysis, folder: Path, stem: str) -> dict[str, dict[str, str]]:
     """Write deflection and von Mises PNGs of every case to ``folder/plots``; returns
     ``{case name: {plot name: relative path}}``."""
+    from platewright.fea.plots import plot_case  # matplotlib only when there is something to plot
+
     plots_dir = folder / "plots"
     plots_dir.mkdir(parents=True, exist_ok=True)
     out: dict[str, dict[str, str]] = {}

@@ -45,8 +45,9 @@ def plot_field(result: CaseResult, field: str = "deflection", *, dpi: int = 110,
     x0, y0 = xy.min(axis=0)
     x1, y1 = xy.max(axis=0)
     aspect = (y1 - y0) / max(x1 - x0, 1e-9)
-    fig = Figure(figsize=(width_in, max(2.5, min(width_in * aspect + 0.8, 2 * width_in))), dpi=dpi,
-                 layout="constrained")
+    # fixed margins instead of a layout engine: constrained layout measured ~40% of plot time
+    fig = Figure(figsize=(width_in, max(2.5, min(width_in * aspect + 0.8, 2 * width_in))), dpi=dpi)
+    fig.subplots_adjust(left=0.1, right=0.97, bottom=0.1, top=0.92)
     FigureCanvasAgg(fig)
     ax = fig.add_subplot(1, 1, 1)
     tri = Triangulation(xy[:, 0], xy[:, 1], f.triangles)
