@@ -13,6 +13,7 @@ from platewright.geometry.pipeline import build_design
 
 from .cmd_compare import CompareCommand
 from .cmd_coupon import CouponCommand
+from .cmd_lighten import LightenCommand
 from .cmd_machines import MachinesCommand
 from .cmd_nest import NestCommand
 from .cmd_sweep import SweepCommand
@@ -150,7 +151,7 @@ class MaterialsCommand(Command):
 
 
 COMMANDS: list[Command] = [
-    BuildCommand(), CheckCommand(), NestCommand(), CompareCommand(), SweepCommand(),
+    BuildCommand(), CheckCommand(), LightenCommand(), NestCommand(), CompareCommand(), SweepCommand(),
     CouponCommand(), MachinesCommand(), FieldsCommand(), StartersCommand(), MaterialsCommand(),
 ]
 

@@ -63,8 +63,9 @@ def fea_html(analysis: PlateAnalysis, report_fea: dict[str, Any], folder: Path,
         if case.collision is not None:
             col = case.collision
             notes.append(f"{case.name}: collision peak force {col.force_n:.1f} N "
-                         f"(F = v sqrt(k m)), bumper travel {col.bumper_travel_mm:.2f} mm, "
-                         f"{col.deceleration_g:.1f} g")
+                         f"(F = v sqrt(k m), vehicle mass {col.vehicle_mass_g:.0f} g), bumper travel "
+                         f"{col.bumper_travel_mm:.2f} mm, peak deceleration {col.deceleration_g:.1f} "
+                         "times gravity")
     note_html = "".join(f"<li>{html.escape(n)}</li>" for n in notes)
     images = []
     for case_name, files in plots.items():
