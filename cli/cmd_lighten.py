@@ -14,18 +14,15 @@ import argparse
 import base64
 import html
 import json
-import sys
 from pathlib import Path
 from typing import Any
 
 from platewright.geometry.cutpaths import cut_paths
 from platewright.geometry.dxf_writer import write_plate_dxf
-from platewright.geometry.errors import DesignError, Problem
-from platewright.geometry.pipeline import build_design
 from platewright.geometry.solid_writer import write_plate_glb, write_plate_stl
 from platewright.geometry.svg_writer import plate_svg_string
 
-from .command_base import DesignCommand
+from .command_base import AnalysisCommand
 from .outputs import staged_output
 from .report_fea import fea_html
 from .report_html import render_report
@@ -111,10 +108,11 @@ def lightening_html(results: list[Any], reports: list[dict[str, Any]], svgs: lis
     return "".join(parts)
 
 
-class LightenCommand(DesignCommand):
+class LightenCommand(AnalysisCommand):
     name = "lighten"
     help = ("propose lightening holes for every plate with load cases, verified by a "
             "finite-element check of the holed plate, and write the lightened cut files")
+    verb = "lighten for"
 
     def add_arguments(self, parser: argparse.ArgumentParser) -> None:
         super().add_arguments(parser)
@@ -123,41 +121,21 @@ class LightenCommand(DesignCommand):
                                  "design's lightening.style, else organic)")
         parser.add_argument("--pattern-shape", choices=["round", "triangle", "slot"],
                             help="hole shape of the pattern style (default: the design's, else round)")
-        parser.add_argument("--mesh-size-mm", type=float, metavar="MM",
-                            help="element size of the verifying analyses (default: each case's)")
-        parser.add_argument("--solver", choices=["auto", "direct", "amg"], default="auto",
-                            help="linear solver of the verifying analyses")
 
     def run(self, args: argparse.Namespace) -> int:
-        from platewright.fea.analysis import analyse_design
         from platewright.fea.design_region import lightening_section
         from platewright.fea.lighten import lighten_design
-        from platewright.fea.loadcases import parse_loads
 
-        _, design, outdir = self.load(args)
-        if args.mesh_size_mm is not None and not args.mesh_size_mm > 0:
-            raise DesignError(Problem("--mesh-size-mm", f"must be > 0, got {args.mesh_size_mm}"))
-        result = build_design(design)
-        self.refuse_on_rule_errors(result)
+        done = self.analyse(args)
+        design, outdir, result, analyses = done.design, done.outdir, done.result, done.analyses
         plates = [b.plate for b in result.plates]
-        loads = parse_loads(design, plates)
-        if not loads.cases:
-            raise DesignError(Problem("load_cases", "the design has no load cases to lighten for",
-                                      hint="add load_cases (see `platewright fields`)"),
-                              source=str(design.source_path))
-
-        def progress(text: str) -> None:
-            if not args.quiet and "optimiser iteration" not in text:
-                print(f"  {text}", file=sys.stderr, flush=True)
-
-        analyses = analyse_design(design, plates, size_mm=args.mesh_size_mm, method=args.solver,
-                                  progress=progress, loads=loads)
         raw = lightening_section(design) or {}
         style = args.style or raw.get("style") or "organic"
         styles = ["organic", "pattern"] if style == "both" else [style]
         overrides = {"pattern_shape": args.pattern_shape} if args.pattern_shape else None
         results = lighten_design(design, plates, styles=styles, overrides=overrides,
-                                 size_mm=args.mesh_size_mm, method=args.solver, progress=progress,
+                                 size_mm=args.mesh_size_mm, method=args.solver,
+                                 progress=self.progress(args),
                                  analyses=analyses)
         with staged_output(outdir) as tmp:
             report = write_build(result, tmp, analyses)

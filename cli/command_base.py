@@ -1,22 +1,27 @@
-"""Base classes of the ``platewright`` subcommands: a command, and a command over a design file."""
+"""Base classes of the ``platewright`` subcommands: a command, a command over a design file, and
+one that also runs the design's load cases."""
 
 from __future__ import annotations
 
 import argparse
 import dataclasses
+import sys
+from collections.abc import Callable
 from pathlib import Path
+from typing import Any
 
 from platewright.geometry.build import bundled_example_path
 from platewright.geometry.design import Design, load_design
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.machine_files import is_profile_path, resolve_machine
 from platewright.geometry.machines import MachineProfile
-from platewright.geometry.pipeline import BuildResult
+from platewright.geometry.pipeline import BuildResult, build_design
 from platewright.geometry.yamlsource import parse_yaml
 
 from .outputs import check_output_target
 
-__all__ = ["Command", "DesignCommand", "default_outdir", "machine_file_override"]
+__all__ = ["Command", "DesignCommand", "AnalysisCommand", "Analysed", "default_outdir",
+           "machine_file_override"]
 
 #: A bundled key that stands in for a profile file while the design is validated.
 _PLACEHOLDER_MACHINE = "example_co2_60w"
@@ -115,3 +120,59 @@ def machine_file_override(design_path: Path, machine_arg: str | None,
             exc.source = exc.source or str(design_path)
             raise
     return None
+
+
+@dataclasses.dataclass(frozen=True)
+class Analysed:
+    """What an analysing command has before it writes: the design, the output folder, the build,
+    the parsed load input and one PlateAnalysis per plate with load cases."""
+
+    design: Design
+    outdir: Path
+    result: BuildResult
+    loads: Any
+    analyses: list[Any]
+
+
+class AnalysisCommand(DesignCommand):
+    """A design command that also runs the design's load cases (check, lighten)."""
+
+    #: what the command does with load cases, for the "no load cases" message
+    verb = "check"
+
+    def add_arguments(self, parser: argparse.ArgumentParser) -> None:
+        super().add_arguments(parser)
+        parser.add_argument("--mesh-size-mm", type=float, metavar="MM",
+                            help="element size for every case (default: each case's mesh_size_mm, "
+                                 "else from the plate size)")
+        parser.add_argument("--solver", choices=["auto", "direct", "amg"], default="auto",
+                            help="linear solver (default auto: direct when small, multigrid when large)")
+
+    def progress(self, args: argparse.Namespace) -> Callable[[str], None]:
+        """A progress printer to standard error (silent with -q)."""
+
+        def show(text: str) -> None:
+            if not args.quiet and "optimiser iteration" not in text:
+                print(f"  {text}", file=sys.stderr, flush=True)
+
+        return show
+
+    def analyse(self, args: argparse.Namespace) -> Analysed:
+        """Load, build (refusing on rule errors), parse the load cases and solve every one."""
+        from platewright.fea.analysis import analyse_design
+        from platewright.fea.loadcases import parse_loads
+
+        _, design, outdir = self.load(args)
+        if args.mesh_size_mm is not None and not args.mesh_size_mm > 0:
+            raise DesignError(Problem("--mesh-size-mm", f"must be > 0, got {args.mesh_size_mm}"))
+        result = build_design(design)
+        self.refuse_on_rule_errors(result)
+        plates = [b.plate for b in result.plates]
+        loads = parse_loads(design, plates)
+        if not loads.cases:
+            raise DesignError(Problem("load_cases", f"the design has no load cases to {self.verb}",
+                                      hint="add load_cases (see `platewright fields`)"),
+                              source=str(design.source_path))
+        analyses = analyse_design(design, plates, size_mm=args.mesh_size_mm, method=args.solver,
+                                  progress=self.progress(args), loads=loads)
+        return Analysed(design, outdir, result, loads, analyses)

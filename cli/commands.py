@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import argparse
 import shutil
-import sys
 from pathlib import Path
 
 from platewright.geometry.build import list_templates
@@ -17,7 +16,7 @@ from .cmd_lighten import LightenCommand
 from .cmd_machines import MachinesCommand
 from .cmd_nest import NestCommand
 from .cmd_sweep import SweepCommand
-from .command_base import Command, DesignCommand
+from .command_base import AnalysisCommand, Command, DesignCommand
 from .outputs import staged_output
 from .terminal import build_summary
 from .write_build import write_build
@@ -40,57 +39,33 @@ class BuildCommand(DesignCommand):
         return 0
 
 
-class CheckCommand(DesignCommand):
+class CheckCommand(AnalysisCommand):
     name = "check"
     help = ("build, then estimate deflection, stress and safety factor of every plate under every "
             "load case (finite elements), against the design's limits")
 
     def add_arguments(self, parser: argparse.ArgumentParser) -> None:
         super().add_arguments(parser)
-        parser.add_argument("--mesh-size-mm", type=float, metavar="MM",
-                            help="element size for every case (default: each case's mesh_size_mm, "
-                                 "else from the plate size)")
-        parser.add_argument("--solver", choices=["auto", "direct", "amg"], default="auto",
-                            help="linear solver (default auto: direct when small, multigrid when large)")
         parser.add_argument("--vtu", action="store_true",
                             help="also write mesh and fields as VTU files (fields/) for other viewers")
 
     def run(self, args: argparse.Namespace) -> int:
-        from platewright.fea.analysis import analyse_design
-        from platewright.fea.loadcases import parse_loads
         from platewright.fea.vtu import write_vtu
 
         from .report_fea import fea_summary
 
-        _, design, outdir = self.load(args)
-        if args.mesh_size_mm is not None and not args.mesh_size_mm > 0:
-            raise DesignError(Problem("--mesh-size-mm", f"must be > 0, got {args.mesh_size_mm}"))
-        result = build_design(design)
-        self.refuse_on_rule_errors(result)
-        plates = [b.plate for b in result.plates]
-        loads = parse_loads(design, plates)
-        if not loads.cases:
-            raise DesignError(Problem("load_cases", "the design has no load cases to check",
-                                      hint="add load_cases (see `platewright fields`)"),
-                              source=str(design.source_path))
-
-        def progress(text: str) -> None:
-            if not args.quiet:
-                print(f"  solving {text}", file=sys.stderr, flush=True)
-
-        analyses = analyse_design(design, plates, size_mm=args.mesh_size_mm, method=args.solver,
-                                  progress=progress, loads=loads)
-        with staged_output(outdir) as tmp:
-            report = write_build(result, tmp, analyses)
+        done = self.analyse(args)
+        with staged_output(done.outdir) as tmp:
+            report = write_build(done.result, tmp, done.analyses)
             if args.vtu:
                 (tmp / "fields").mkdir()
-                for a in analyses:
+                for a in done.analyses:
                     for case in a.cases:
                         write_vtu(case, tmp / "fields" / f"{a.plate}__{case.name}.vtu")
         if not args.quiet:
-            print(build_summary(report, str(outdir)))
-            print(fea_summary(analyses))
-        return 0 if all(a.passes for a in analyses) else 1
+            print(build_summary(report, str(done.outdir)))
+            print(fea_summary(done.analyses))
+        return 0 if all(a.passes for a in done.analyses) else 1
 
 
 class FieldsCommand(Command):
