@@ -11,7 +11,6 @@ more mass is written as ``<name>_lightened.*``, each also as ``<name>_lightened_
 from __future__ import annotations
 
 import argparse
-import base64
 import html
 import json
 from pathlib import Path
@@ -24,7 +23,7 @@ from platewright.geometry.svg_writer import plate_svg_string
 
 from .command_base import AnalysisCommand
 from .outputs import staged_output
-from .report_fea import fea_html
+from .report_fea import fea_html, plot_figure_html
 from .report_html import render_report
 from .terminal import build_summary, format_table
 from .write_build import safe_name, write_build
@@ -52,18 +51,17 @@ def write_lightened(res: Any, folder: Path, stem: str) -> tuple[dict[str, str], 
     return rel, svg
 
 
-def _png(folder: Path, rel: str, data: bytes) -> str:
+def _png(folder: Path, rel: str, data: bytes, legend_html: str) -> str:
     (folder / rel).parent.mkdir(parents=True, exist_ok=True)
     (folder / rel).write_bytes(data)
-    b64 = base64.b64encode(data).decode("ascii")
-    return f'<img class="plot" alt="{html.escape(rel)}" src="data:image/png;base64,{b64}">'
+    return plot_figure_html(data, rel, legend_html)
 
 
 def lightening_html(results: list[Any], reports: list[dict[str, Any]], svgs: list[str],
                     folder: Path, stem: str) -> str:
     """Before/after HTML of one plate's lightening results (one per style); deflection plots
     are written to ``folder/plots`` and embedded."""
-    from platewright.fea.plots import plot_field
+    from platewright.fea.plots import plot_field, plot_legend_html
     from platewright.fea.results import ESTIMATE_NOTE
 
     parts = ["<h3>Lightening</h3>"]
@@ -103,8 +101,10 @@ def lightening_html(results: list[Any], reports: list[dict[str, Any]], svgs: lis
             if before.fields is None or after.fields is None or not res.holes:
                 continue
             for when, case in (("before", before), ("after", after)):
+                legend = (f"<div class='meta'>{when} lightening</div>"
+                          + plot_legend_html(case, "deflection"))
                 parts.append(_png(folder, f"plots/{tag}__{case.name}__deflection_{when}.png",
-                                  plot_field(case, "deflection")))
+                                  plot_field(case, "deflection"), legend))
     return "".join(parts)
 
 

@@ -14,7 +14,7 @@ from platewright.fea.results import ESTIMATE_NOTE, PlateAnalysis
 
 from .terminal import format_table
 
-__all__ = ["write_plots", "fea_html", "fea_summary"]
+__all__ = ["write_plots", "plot_figure_html", "fea_html", "fea_summary"]
 
 
 def _fmt(x: Any, spec: str = ".3g") -> str:
@@ -24,7 +24,7 @@ def _fmt(x: Any, spec: str = ".3g") -> str:
 def write_plots(analysis: PlateAnalysis, folder: Path, stem: str) -> dict[str, dict[str, str]]:
     """Write deflection and von Mises PNGs of every case to ``folder/plots``; returns
     ``{case name: {plot name: relative path}}``."""
-    from platewright.fea.plots import plot_case  # matplotlib only when there is something to plot
+    from platewright.fea.plots import plot_case
 
     plots_dir = folder / "plots"
     plots_dir.mkdir(parents=True, exist_ok=True)
@@ -41,9 +41,22 @@ def write_plots(analysis: PlateAnalysis, folder: Path, stem: str) -> dict[str, d
     return out
 
 
+def plot_figure_html(png: bytes, alt: str, legend_html: str) -> str:
+    """A contour plot embedded as a data: URI with its legend (``fea.plots.plot_legend_html``)
+    below it, as one figure taking about half the page width."""
+    data = base64.b64encode(png).decode("ascii")
+    return ('<figure class="plot-figure" style="display:inline-block;vertical-align:top;'
+            'width:48%;margin:.3rem">'
+            f'<img class="plot" alt="{html.escape(alt)}" style="max-width:100%;margin:0" '
+            f'src="data:image/png;base64,{data}"><figcaption>{legend_html}</figcaption></figure>')
+
+
 def fea_html(analysis: PlateAnalysis, report_fea: dict[str, Any], folder: Path,
              plots: dict[str, dict[str, str]]) -> str:
-    """HTML section for one plate's load cases; plots are embedded so the report stands alone."""
+    """HTML section for one plate's load cases; plots are embedded so the report stands alone,
+    each with its legend (title, colour bar, min/max, caution)."""
+    from platewright.fea.plots import FIELDS, plot_legend_html
+
     rows = []
     for c in report_fea["load_cases"]:
         verdict = '<span class="ok">passes</span>' if c["passes"] else '<span class="error">FAILS</span>'
@@ -67,12 +80,15 @@ def fea_html(analysis: PlateAnalysis, report_fea: dict[str, Any], folder: Path,
                          f"{col.bumper_travel_mm:.2f} mm, peak deceleration {col.deceleration_g:.1f} "
                          "times gravity")
     note_html = "".join(f"<li>{html.escape(n)}</li>" for n in notes)
+    cases = {c.name: c for c in analysis.cases}
     images = []
     for case_name, files in plots.items():
         for plot_name, rel in files.items():
-            data = base64.b64encode((folder / rel).read_bytes()).decode("ascii")
-            images.append(f'<img class="plot" alt="{html.escape(case_name)} {plot_name}" '
-                          f'src="data:image/png;base64,{data}">')
+            case = cases.get(case_name)
+            legend = (plot_legend_html(case, plot_name) if case is not None
+                      and case.fields is not None and plot_name in FIELDS else "")
+            images.append(plot_figure_html((folder / rel).read_bytes(),
+                                           f"{case_name} {plot_name}", legend))
     return (f"<h3>Stiffness and strength</h3>{table}"
             f"<p class='meta'>{html.escape(ESTIMATE_NOTE)}.</p>"
             + (f"<ul>{note_html}</ul>" if note_html else "") + "".join(images))
