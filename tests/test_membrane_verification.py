@@ -86,7 +86,7 @@ def _beam_exact_strain(x: np.ndarray, y: np.ndarray) -> np.ndarray:
 
 
 def test_beam_exact_field_is_the_published_one() -> None:
-    # Guard the transcription: finite differences of the field give the beam-theory stresses
+    # Guard the typed-in formulas: finite differences of the field give the beam-theory stresses
     # sigma_xx = -P (L - x) y / I and tau_xy = P (D^2/4 - y^2) / (2 I), sigma_yy = 0
     # (Timoshenko and Goodier sec. 21), and the tip deflection is the REFERENCE.md formula.
     x, y, h = np.array([13.0]), np.array([2.5]), 1e-5

@@ -67,7 +67,7 @@ def _gauss_q4_ke(nu: float) -> np.ndarray:
 
 def _top88(nelx: int, nely: int, volfrac: float, penal: float, rmin: float, ft: int,
            max_loop: int = 400) -> tuple[list[float], np.ndarray]:
-    """A direct numpy transcription of the 88-line procedure (ft 1: sensitivity filter,
+    """A direct numpy re-implementation of the 88-line procedure (ft 1: sensitivity filter,
     ft 2: density filter), 0-based; returns the compliance history and the final xPhys."""
     e0, emin, nu, move = 1.0, 1e-9, 0.3, 0.2
     ke = _paper_ke(nu)
@@ -172,7 +172,7 @@ def test_density_filter_is_the_papers_cone_weights():
 @pytest.mark.parametrize("filter_name,ft", [("sensitivity", 1), ("density", 2)])
 def test_mbb_beam_follows_the_88_line_procedure(filter_name, ft):
     # The paper's default example top88(60, 20, 0.5, 3, 1.5, ft), run by the library and by
-    # the transcription above; the two must follow the same path.
+    # the re-implementation above; the two must follow the same path.
     model = mbb_model(60, 20)
     assert isinstance(model, DensityModel)
     res = optimise(model, 0.5, TopOptSettings(rmin_mm=1.5, filter=filter_name, max_iter=400))
@@ -187,7 +187,7 @@ def test_mbb_beam_follows_the_88_line_procedure(filter_name, ft):
     assert hist[-1] < 0.5 * hist[0]
     assert np.ptp(hist[-10:]) < 5e-3 * hist[-1]
     # From memory, NOT confirmed against the paper: the converged compliance of this example
-    # is about 200-215 (E0 = 1, unit load). A loose band only; the transcription above is the
+    # is about 200-215 (E0 = 1, unit load). A loose band only; the re-implementation above is the
     # real check.
     assert 180.0 < hist[-1] < 240.0
     # Volume constraint (the bisection stops within 1e-3 relative on the multiplier).
