@@ -13,18 +13,12 @@ from typing import Any
 from platewright.geometry.build import bundled_example_path
 from platewright.geometry.design import Design, load_design
 from platewright.geometry.errors import DesignError, Problem
-from platewright.geometry.machine_files import is_profile_path, resolve_machine
-from platewright.geometry.machines import MachineProfile
 from platewright.geometry.pipeline import BuildResult, build_design
-from platewright.geometry.yamlsource import parse_yaml
 
 from .outputs import check_output_target
 
-__all__ = ["Command", "DesignCommand", "AnalysisCommand", "Analysed", "default_outdir",
-           "machine_file_override"]
+__all__ = ["Command", "DesignCommand", "AnalysisCommand", "Analysed", "default_outdir"]
 
-#: A bundled key that stands in for a profile file while the design is validated.
-_PLACEHOLDER_MACHINE = "example_co2_60w"
 
 
 def default_outdir(design_path: Path) -> Path:
@@ -71,16 +65,9 @@ class DesignCommand(Command):
                                       hint="give a YAML design file, or none for the bundled example"))
         overrides = list(args.overrides)
         machine = getattr(args, "machine", None)
-        if machine and not is_profile_path(machine):
+        if machine:  # a bundled key or a profile file (relative to the working folder)
             overrides.append(f"machine={machine}")
-            machine = None
-        profile = machine_file_override(path, machine, overrides)
-        if profile is None:
-            design = load_design(path, overrides=overrides)
-        else:
-            # validate the design with a stand-in key, then put the profile file in its place
-            design = load_design(path, overrides=[*overrides, f"machine={_PLACEHOLDER_MACHINE}"])
-            design = dataclasses.replace(design, machine=profile, overrides=tuple(overrides))
+        design = load_design(path, overrides=overrides)
         outdir = args.output if args.output is not None else default_outdir(path)
         check_output_target(outdir.absolute())
         return path, design, outdir
@@ -93,33 +80,6 @@ class DesignCommand(Command):
                     for name, f in result.errors]
         if problems:
             raise DesignError(problems, source=str(result.design.source_path))
-
-
-def machine_file_override(design_path: Path, machine_arg: str | None,
-                          overrides: list[str]) -> MachineProfile | None:
-    """The machine profile FILE to use for a design, or None when a bundled key or an inline
-    profile applies. In order: ``--machine PATH`` (relative to the working folder), the last
-    ``--set machine=PATH`` (same), the design's ``machine: PATH`` (relative to the design file).
-    DesignError (field and line) for a missing or bad profile file."""
-    if machine_arg:
-        return resolve_machine(machine_arg, None, "--machine")
-    for text in reversed(overrides):
-        key, _, value = text.partition("=")
-        if key.strip() == "machine":
-            value = value.strip()
-            return resolve_machine(value, None, "--set machine") if is_profile_path(value) else None
-    try:
-        tree = parse_yaml(design_path.read_text(encoding="utf-8"), str(design_path))
-    except (OSError, UnicodeDecodeError, DesignError):
-        return None  # load_design reports it
-    value = tree.data.get("machine") if isinstance(tree.data, dict) else None
-    if isinstance(value, str) and is_profile_path(value):
-        try:
-            return resolve_machine(value, design_path.parent, "machine", tree.lines.line_of("machine"))
-        except DesignError as exc:
-            exc.source = exc.source or str(design_path)
-            raise
-    return None
 
 
 @dataclasses.dataclass(frozen=True)

@@ -18,6 +18,7 @@ from typing import Any
 
 from . import library, machines
 from .errors import DesignError, Problem
+from .machine_files import is_profile_path, resolve_machine
 from .machines import MachineProfile
 from .model import Material
 from .overrides import apply_overrides
@@ -136,8 +137,9 @@ class Design:
 class _Resolver:
     """Library look-ups with collected problems."""
 
-    def __init__(self, lines: LineMap) -> None:
+    def __init__(self, lines: LineMap, base_dir: Path | None = None) -> None:
         self.lines = lines
+        self.base_dir = base_dir
         self.problems: list[Problem] = []
         self.warnings: list[str] = []
         self._materials: dict[str, Material] | None = None
@@ -164,6 +166,14 @@ class _Resolver:
         return mat
 
     def machine(self, value: Any, path: str) -> MachineProfile | None:
+        if isinstance(value, str) and is_profile_path(value):
+            # a profile file: relative to the design file, or to the working folder for --set
+            base = None if self.lines.is_overridden(path) else self.base_dir
+            try:
+                return resolve_machine(value, base, path, self.lines.line_of(path))
+            except DesignError as exc:
+                self.problems.extend(exc.problems)
+                return None
         try:
             if isinstance(value, Mapping):
                 return machines.machine_from_mapping({k: v for k, v in value.items()
@@ -225,12 +235,12 @@ def _plate(d: dict, i: int, top: dict, top_material: Material | None, res: _Reso
 
 
 def _design(tree: Any, lines: LineMap, source_path: str, sha256: str,
-            overrides: Sequence[str]) -> Design:
+            overrides: Sequence[str], base_dir: Path | None = None) -> Design:
     val = validate_design(tree, lines)
     if val.data is None:
         raise DesignError(val.problems, source_path)
     top = val.data
-    res = _Resolver(lines)
+    res = _Resolver(lines, base_dir)
     top_material = res.material(top["material"], "material")
     machine = res.machine(top["machine"], "machine")
     plates = [_plate(p, i, top, top_material, res, val) for i, p in enumerate(top["plates"])]
@@ -276,4 +286,5 @@ def load_design(path: str | Path, overrides: Sequence[str] = ()) -> Design:
                           str(p)) from exc
     tree = parse_yaml(text, str(p))
     data = apply_overrides(tree.data, overrides, tree.lines) if overrides else tree.data
-    return _design(data, tree.lines, str(p), hashlib.sha256(raw).hexdigest(), overrides)
+    return _design(data, tree.lines, str(p), hashlib.sha256(raw).hexdigest(), overrides,
+                   base_dir=p.parent)

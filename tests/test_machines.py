@@ -154,6 +154,21 @@ def test_design_names_a_profile_file_relative_to_itself(tmp_path: Path, capsys):
     assert cost["cut_time_s"] == pytest.approx(report["plates"][0]["cut_length_mm"] / 11.0, abs=1e-3)
 
 
+def test_library_loader_resolves_a_profile_file_like_the_command_line(tmp_path: Path):
+    # a Python user of load_design gets the same profile as `platewright build`
+    from platewright.geometry.design import load_design
+
+    (tmp_path / "profiles").mkdir()
+    (tmp_path / "profiles" / "shop.yaml").write_text(FULL, encoding="utf-8")
+    design = tmp_path / "d.yaml"
+    design.write_text(DESIGN.format(machine="profiles/shop.yaml"), encoding="utf-8")
+    assert load_design(design).machine.key == "shop"
+    design.write_text(DESIGN.format(machine="profiles/none.yaml"), encoding="utf-8")
+    with pytest.raises(DesignError) as exc:
+        load_design(design)
+    assert exc.value.problems[0].path == "machine" and exc.value.problems[0].line == 4
+
+
 def test_machine_option_takes_a_file_and_bad_file_refuses(tmp_path: Path, capsys, monkeypatch):
     monkeypatch.chdir(tmp_path)
     Path("shop.yaml").write_text(FULL, encoding="utf-8")
