@@ -8,11 +8,6 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
-import shutil
-import uuid
-from collections.abc import Iterator
-from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -25,11 +20,11 @@ from platewright.geometry.svg_writer import plate_svg_string
 
 from .command_base import Command
 from .compare_html import compare_summary, overlay_svg, render_compare_html
-from .outputs import staged_output
+from .outputs import staged_output, written_by_us
 from .report_json import SCHEMA_VERSION, build_report, tool_version
 from .write_build import safe_name
 
-__all__ = ["CompareSide", "load_side", "CompareCommand", "staged_replace"]
+__all__ = ["CompareSide", "load_side", "CompareCommand"]
 
 
 @dataclass(frozen=True)
@@ -88,34 +83,6 @@ def load_side(path: Path, overrides: list[str], check: bool | None, label: str) 
     return CompareSide(report, svgs, "design")
 
 
-def _is_our_comparison(folder: Path) -> bool:
-    try:
-        data = json.loads((folder / "compare.json").read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        return False
-    return isinstance(data, dict) and data.get("tool", {}).get("name") == "platewright"
-
-
-@contextmanager
-def staged_replace(outdir: Path, is_ours: Any) -> Iterator[Path]:
-    """Like outputs.staged_output, for folders recognised by ``is_ours(folder) -> bool`` rather
-    than by a report.json: an earlier folder of ours is set aside, and put back if the run fails."""
-    outdir = Path(outdir).absolute()
-    aside = None
-    if outdir.is_dir() and any(outdir.iterdir()) and is_ours(outdir):
-        aside = outdir.parent / f".{outdir.name}.old-{uuid.uuid4().hex[:8]}"
-        os.rename(outdir, aside)
-    try:
-        with staged_output(outdir) as tmp:
-            yield tmp
-    except BaseException:
-        if aside is not None and not outdir.exists():
-            os.rename(aside, outdir)
-        raise
-    if aside is not None:
-        shutil.rmtree(aside, ignore_errors=True)
-
-
 class CompareCommand(Command):
     name = "compare"
     help = ("list what changed between two designs or two output folders: features moved, "
@@ -141,7 +108,7 @@ class CompareCommand(Command):
         outdir = args.output if args.output is not None else (
             Path("platewright-out") / f"compare-{args.a.stem or 'a'}-{args.b.stem or 'b'}")
         outdir = outdir.absolute()
-        if outdir.is_dir() and any(outdir.iterdir()) and not _is_our_comparison(outdir):
+        if outdir.is_dir() and any(outdir.iterdir()) and not written_by_us(outdir, "compare.json"):
             raise DesignError(Problem("-o", f"'{outdir}' is not empty and holds no platewright "
                                       "compare.json, so it is not replaced",
                                       hint="choose a new or empty folder"))
@@ -166,7 +133,7 @@ class CompareCommand(Command):
                 overlays[name] = overlay_svg(side_a.svgs[name], None, title=f"{name}: only in A")
         files = {name: f"overlays/{safe_name(name)}.svg" for name in overlays}
         doc["overlays"] = files
-        with staged_replace(outdir, _is_our_comparison) as tmp:
+        with staged_output(outdir) as tmp:
             (tmp / "overlays").mkdir()
             for name, svg in overlays.items():
                 (tmp / files[name]).write_text(svg, encoding="utf-8")

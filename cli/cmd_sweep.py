@@ -20,6 +20,7 @@ from typing import Any
 from platewright.geometry.errors import DesignError, Problem
 
 from .command_base import Command
+from .outputs import written_by_us
 from .report_json import tool_version
 from .sweep_engine import (
     lighten_available,
@@ -34,12 +35,8 @@ __all__ = ["SweepCommand", "is_sweep_folder"]
 
 
 def is_sweep_folder(folder: Path) -> bool:
-    """True when ``folder`` holds a sweep.json written by platewright."""
-    try:
-        data = json.loads((folder / "sweep.json").read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        return False
-    return isinstance(data, dict) and data.get("tool", {}).get("name") == "platewright"
+    """True when ``folder`` holds a sweep.json written by platewright (so it may be resumed)."""
+    return written_by_us(folder, "sweep.json")
 
 
 class SweepCommand(Command):

@@ -16,23 +16,25 @@ from pathlib import Path
 
 from platewright.geometry.errors import DesignError, Problem
 
-__all__ = ["staged_output", "check_output_target"]
+__all__ = ["staged_output", "check_output_target", "written_by_us"]
 
 
 #: The index files our commands write at the top of an output folder.
 _INDEX_FILES = ("report.json", "nest.json", "compare.json", "sweep.json")
 
 
+def written_by_us(folder: Path, index_file: str) -> bool:
+    """True when ``folder/index_file`` (e.g. sweep.json) is a JSON file written by this tool."""
+    try:
+        data = json.loads((folder / index_file).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return False
+    return isinstance(data, dict) and data.get("tool", {}).get("name") == "platewright"
+
+
 def _is_ours(folder: Path) -> bool:
     """True when ``folder`` holds an index file (report.json, nest.json, ...) written by this tool."""
-    for name in _INDEX_FILES:
-        try:
-            data = json.loads((folder / name).read_text(encoding="utf-8"))
-        except (OSError, ValueError):
-            continue
-        if isinstance(data, dict) and data.get("tool", {}).get("name") == "platewright":
-            return True
-    return False
+    return any(written_by_us(folder, name) for name in _INDEX_FILES)
 
 
 def check_output_target(outdir: Path) -> None:
