@@ -125,6 +125,25 @@ def new_cut_document() -> Drawing:
     return doc
 
 
+def save_cut_document(doc: Drawing, path: str | os.PathLike) -> None:
+    """Write ``doc`` to ``path`` so that the same drawing always gives the same bytes.
+
+    ezdxf stamps the save time, fresh GUIDs and its own time-stamped marker into every file, and
+    orders the CLASSES section by a set whose order follows Python's hash seed. Here the header
+    dates are fixed (2000-01-01, ezdxf's reproducible-output option), the GUIDs and marker are
+    constant, and the classes are written in sorted order, so repeated builds are byte-identical.
+    """
+    doc.classes.add_required_classes(doc.dxfversion)
+    doc.classes.classes = dict(sorted(doc.classes.classes.items()))
+    previous = ezdxf.options.write_fixed_meta_data_for_testing
+    ezdxf.options.write_fixed_meta_data_for_testing = True
+    try:
+        doc._create_ezdxf_metadata()  # the "created by" stamp, now constant
+        doc.saveas(os.fspath(path))
+    finally:
+        ezdxf.options.write_fixed_meta_data_for_testing = previous
+
+
 def write_plate_dxf(plate: Plate, cut: list[CutContour], path: str | os.PathLike) -> None:
     """Write the plate's cut paths (mm) to a DXF R2010 file at ``path``.
 
@@ -167,7 +186,7 @@ def write_plate_dxf(plate: Plate, cut: list[CutContour], path: str | os.PathLike
         written[key] = entity
 
     _write_notes(msp, plate, cut)
-    doc.saveas(os.fspath(path))
+    save_cut_document(doc, path)
 
 
 def _set_ids(entity, ids: tuple[str, ...]) -> None:

@@ -31,6 +31,7 @@ from .dxf_writer import (
     LAYER_NOTES,
     _set_ids,
     new_cut_document,
+    save_cut_document,
     polyline_vertices,
 )
 from .model import Plate
@@ -98,7 +99,7 @@ def write_sheet_dxf(sheet: NestedSheet, path: str | os.PathLike,
     for k, line in enumerate(lines):
         msp.add_text(line, height=_NOTE_HEIGHT_MM, dxfattribs={"layer": LAYER_NOTES}
                      ).set_placement((0.0, top - gap * k), align=TextEntityAlignment.LEFT)
-    doc.saveas(os.fspath(path))
+    save_cut_document(doc, path)
 
 
 def sheet_svg_string(sheet: NestedSheet, plates: Mapping[str, Plate] | None = None) -> str:
