@@ -23,15 +23,15 @@ import time
 import numpy as np
 
 from platewright.fea.assembly import assemble_matrix, assemble_vector, element_dofs
-from platewright.fea.bending import (
+from platewright.fea.elements.bending import (
     bending_rigidity,
     dkt_pressure_load,
     dkt_stiffness,
     isotropic_bending_matrix,
 )
-from platewright.fea.bending_rigid import BENDING_MODE_NAMES, bending_rigid_modes
-from platewright.fea.mesh import Mesh
-from platewright.fea.plate_supports import simply_supported
+from platewright.fea.elements.bending_rigid import BENDING_MODE_NAMES, bending_rigid_modes
+from platewright.fea.loadcases.supports import simply_supported
+from platewright.fea.mesh.triangles import Mesh
 from platewright.fea.solve import ConvergenceError, MechanismError, solve_system
 
 E_MPA, NU, T_MM, SIDE_MM, Q_MPA = 2000.0, 0.3, 2.0, 100.0, 1e-3

@@ -18,11 +18,11 @@ from dataclasses import replace
 from pathlib import Path
 
 from platewright.fea.analysis import analyse_plate
-from platewright.fea.design_region import LighteningSettings
-from platewright.fea.lighten import lighten_plate
-from platewright.fea.loadcases import Limits, parse_loads
-from platewright.geometry.design import load_design
-from platewright.geometry.pipeline import build_design
+from platewright.fea.lighten.design_region import LighteningSettings
+from platewright.fea.lighten.pipeline import lighten_plate
+from platewright.fea.loadcases.parse import Limits, parse_loads
+from platewright.geometry.design.loader import load_design
+from platewright.geometry.plate.pipeline import build_design
 
 DESIGN = Path(__file__).resolve().parents[1] / "templates" / "designs" / "four_wheel_deck.yaml"
 MARGINS = (0.0, 0.05, 0.10, 0.25)

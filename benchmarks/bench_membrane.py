@@ -44,18 +44,18 @@ def _peak_mb() -> float:
 
 
 def run_platewright(unknowns: int) -> dict:
-    from platewright.fea.constitutive import isotropic_plane_stress
-    from platewright.fea.membrane import (
+    from platewright.fea.elements.constitutive import isotropic_plane_stress
+    from platewright.fea.elements.membrane import (
         assemble_stiffness,
         body_force_vector,
         edge_load_vector,
         nodal_stresses,
         von_mises,
     )
-    from platewright.fea.quadratic import quadratic_mesh
-    from platewright.fea.rigid import MEMBRANE_MODE_NAMES, membrane_rigid_modes
+    from platewright.fea.elements.membrane_rigid import MEMBRANE_MODE_NAMES, membrane_rigid_modes
+    from platewright.fea.elements.quadratic import quadratic_mesh
+    from platewright.fea.mesh.structured import rectangle_mesh
     from platewright.fea.solve import solve_system
-    from platewright.fea.structured import rectangle_mesh
 
     nx, ny = _grid_for(unknowns)
     out: dict = {}
@@ -90,7 +90,7 @@ def run_skfem(unknowns: int) -> dict:
     import skfem
     from skfem.models.elasticity import linear_elasticity
 
-    from platewright.fea.structured import rectangle_mesh
+    from platewright.fea.mesh.structured import rectangle_mesh
 
     nx, ny = _grid_for(unknowns)
     mesh = rectangle_mesh(WIDTH_MM, HEIGHT_MM, nx, ny)

@@ -17,9 +17,9 @@ import time
 
 import numpy as np
 
-from platewright.fea.mesher import TaggedRing, mesh_rings
-from platewright.fea.plate_input import sample_contour
-from platewright.geometry.curves import circle
+from platewright.fea.mesh.mesher import TaggedRing, mesh_rings
+from platewright.fea.mesh.plate_input import sample_contour
+from platewright.geometry.plate.curves import circle
 
 DEFAULT_SIZES_MM = (4.5, 1.2, 0.52)
 

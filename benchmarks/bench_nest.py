@@ -17,9 +17,9 @@ import time
 
 import numpy as np
 
-from platewright.geometry.curves import Contour, circle
 from platewright.geometry.model import CutContour, Feature, Material, Plate
-from platewright.geometry.nesting import NestItem, SheetSize, nest_parts
+from platewright.geometry.plate.curves import Contour, circle
+from platewright.geometry.shop.nesting import NestItem, SheetSize, nest_parts
 
 _MAT = Material("bench_acrylic", "bench acrylic", 3000.0, 0.37, 1185.0, 72.0, "tensile", 0.2, {},
                 None)

@@ -29,11 +29,11 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 
 from plate_factory import make_plate, rect_contour, round_hole  # noqa: E402
 
-from platewright.fea.loadcases import parse_loads  # noqa: E402
-from platewright.fea.mesher import mesh_rings  # noqa: E402
-from platewright.fea.plate_input import plate_rings  # noqa: E402
-from platewright.fea.topopt import TopOptSettings, optimise  # noqa: E402
-from platewright.fea.topopt_plate import PlateDensityModel  # noqa: E402
+from platewright.fea.lighten.plate_density import PlateDensityModel  # noqa: E402
+from platewright.fea.lighten.simp import TopOptSettings, optimise  # noqa: E402
+from platewright.fea.loadcases.parse import parse_loads  # noqa: E402
+from platewright.fea.mesh.mesher import mesh_rings  # noqa: E402
+from platewright.fea.mesh.plate_input import plate_rings  # noqa: E402
 
 BORES = {"bore_a": (12.0, 12.0), "bore_b": (188.0, 12.0), "bore_c": (188.0, 108.0),
          "bore_d": (12.0, 108.0)}

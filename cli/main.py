@@ -10,9 +10,8 @@ import argparse
 import sys
 from collections.abc import Sequence
 
+from platewright.cli.commands.registry import COMMANDS
 from platewright.geometry.errors import DesignError
-
-from .commands import COMMANDS
 
 __all__ = ["main", "make_parser"]
 

@@ -19,22 +19,21 @@ from typing import Any
 import numpy as np
 from scipy.spatial import cKDTree
 
+from platewright.fea.assembly import assemble_matrix, element_dofs
+from platewright.fea.elements import bending as dkt
+from platewright.fea.elements import membrane
+from platewright.fea.elements.bending_rigid import BENDING_MODE_NAMES, bending_rigid_modes
+from platewright.fea.elements.constitutive import material_plane_stress
+from platewright.fea.elements.membrane_rigid import MEMBRANE_MODE_NAMES, membrane_rigid_modes
+from platewright.fea.elements.quadratic import QuadraticMesh, quadratic_mesh
+from platewright.fea.loadcases.mapping import MappedCase, map_case
+from platewright.fea.loadcases.parse import Component, LoadCase, LoadInput, parse_loads
+from platewright.fea.mesh.triangles import Mesh
+from platewright.fea.results import CaseFields, CaseResult, CollisionResult, LimitCheck, PlateAnalysis
+from platewright.fea.solve import ConvergenceError, MechanismError, UnderSupportedError, solve_system
 from platewright.geometry.errors import DesignError, Problem
-from platewright.geometry.mass import mass_properties
 from platewright.geometry.model import Material, Plate
-
-from . import bending as dkt
-from . import membrane
-from .assembly import assemble_matrix, element_dofs
-from .bending_rigid import BENDING_MODE_NAMES, bending_rigid_modes
-from .constitutive import material_plane_stress
-from .loadcases import Component, LoadCase, LoadInput, parse_loads
-from .mapping import MappedCase, map_case
-from .mesh import Mesh
-from .quadratic import QuadraticMesh, quadratic_mesh
-from .results import CaseFields, CaseResult, CollisionResult, LimitCheck, PlateAnalysis
-from .rigid import MEMBRANE_MODE_NAMES, membrane_rigid_modes
-from .solve import ConvergenceError, MechanismError, UnderSupportedError, solve_system
+from platewright.geometry.plate.mass import mass_properties
 
 __all__ = [
     "BYTES_PER_DOF",
@@ -84,14 +83,16 @@ class _PlateMeshes:
         self._quad: dict[float, QuadraticMesh] = {}
 
     def rings(self, size_mm: float | None):
-        from .plate_input import plate_rings  # written alongside; imported when first needed
+        from platewright.fea.mesh.plate_input import (
+            plate_rings,  # written alongside; imported when first needed
+        )
 
         return plate_rings(self.plate, size_mm)
 
     def linear(self, size_mm: float, max_nodes: int) -> tuple[Mesh, tuple[np.ndarray, ...], bool]:
         if size_mm in self._lin:
             return (*self._lin[size_mm], False)
-        from .mesher import mesh_rings
+        from platewright.fea.mesh.mesher import mesh_rings
 
         rings = self.rings(size_mm)
         mesh = mesh_rings(rings, size_mm, max_nodes=max_nodes)

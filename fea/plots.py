@@ -26,7 +26,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from .results import CaseResult
+from platewright.fea.results import CaseResult
 
 __all__ = ["FIELDS", "BANDS", "RAMP_KEYS", "ramp_rgb", "encode_png_rgb", "plot_field",
            "plot_case", "plot_legend_html"]

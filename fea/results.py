@@ -12,7 +12,7 @@ from typing import Any
 
 import numpy as np
 
-from .mesh import MeshQuality
+from platewright.fea.mesh.triangles import MeshQuality
 
 __all__ = ["ESTIMATE_NOTE", "LimitCheck", "CollisionResult", "CaseFields", "CaseResult",
            "PlateAnalysis"]

@@ -14,7 +14,7 @@ from pathlib import Path
 import meshio
 import numpy as np
 
-from .results import CaseResult
+from platewright.fea.results import CaseResult
 
 __all__ = ["case_mesh", "write_vtu", "vtu_bytes"]
 

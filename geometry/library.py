@@ -21,7 +21,7 @@ from typing import Any
 
 import yaml
 
-from .model import Material
+from platewright.geometry.model import Material
 
 __all__ = [
     "StrapPattern",

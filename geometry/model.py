@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from .curves import Contour
+from platewright.geometry.plate.curves import Contour
 
 __all__ = [
     "Material",

@@ -9,7 +9,7 @@ import math
 
 import numpy as np
 
-from platewright.geometry.curves import Contour, circle
+from platewright.geometry.plate.curves import Contour, circle
 
 __all__ = [
     "rectangle",

@@ -15,8 +15,8 @@ import math
 
 import numpy as np
 
-from platewright.geometry.curves import Contour, circle
 from platewright.geometry.model import CutContour, Engraving, Feature, Material, Plate
+from platewright.geometry.plate.curves import Contour, circle
 
 __all__ = [
     "ACRYLIC_3MM_KERF",

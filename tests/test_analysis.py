@@ -15,17 +15,17 @@ import yaml
 from plate_factory import make_plate, rect_contour, round_hole
 
 from platewright.fea.analysis import analyse_design, total_vehicle_mass_g
-from platewright.fea.loadcases import parse_loads
-from platewright.fea.mapping import map_case
-from platewright.fea.mesher import mesh_rings
-from platewright.fea.plate_input import plate_rings
+from platewright.fea.elements.quadratic import quadratic_mesh
+from platewright.fea.loadcases.mapping import map_case
+from platewright.fea.loadcases.parse import parse_loads
+from platewright.fea.mesh.mesher import mesh_rings
+from platewright.fea.mesh.plate_input import plate_rings
 from platewright.fea.plots import plot_case
-from platewright.fea.quadratic import quadratic_mesh
 from platewright.fea.vtu import vtu_bytes, write_vtu
-from platewright.geometry.build import build_plates
-from platewright.geometry.design import load_design_text
-from platewright.geometry.mass import mass_properties
+from platewright.geometry.design.loader import load_design_text
 from platewright.geometry.model import Plate
+from platewright.geometry.plate.build import build_plates
+from platewright.geometry.plate.mass import mass_properties
 
 #: Standard gravity, m/s^2 (3rd CGPM 1901), written here independently of the code.
 G = 9.80665
@@ -391,7 +391,7 @@ def _hand_loads(masses: dict[str, float]) -> dict[str, tuple[int, float]]:
 
 @pytest.mark.parametrize("starter", sorted(STARTERS))
 def test_starter_design_copies_with_suggested_load_cases(starter):
-    from platewright.geometry.build import list_templates
+    from platewright.geometry.plate.build import list_templates
 
     path = next(p for p in list_templates() if p.name == starter)
     data = yaml.safe_load(path.read_text(encoding="utf-8"))

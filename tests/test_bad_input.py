@@ -9,9 +9,9 @@ from __future__ import annotations
 
 import pytest
 
-from platewright.geometry.build import build_plates
-from platewright.geometry.design import load_design, load_design_text
+from platewright.geometry.design.loader import load_design, load_design_text
 from platewright.geometry.errors import DesignError
+from platewright.geometry.plate.build import build_plates
 
 GOOD = """\
 name: bad input test

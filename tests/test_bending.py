@@ -12,7 +12,7 @@ from scipy.spatial import Delaunay
 from scipy.spatial.transform import Rotation
 
 from platewright.fea.assembly import assemble_matrix, assemble_vector, element_dofs
-from platewright.fea.bending import (
+from platewright.fea.elements.bending import (
     bending_rigidity,
     dkt_moments,
     dkt_pressure_load,
@@ -24,15 +24,15 @@ from platewright.fea.bending import (
     surface_stresses,
     von_mises_plane,
 )
-from platewright.fea.bending_rigid import BENDING_MODE_NAMES, bending_rigid_modes
-from platewright.fea.mesh import Mesh
-from platewright.fea.plate_supports import (
+from platewright.fea.elements.bending_rigid import BENDING_MODE_NAMES, bending_rigid_modes
+from platewright.fea.loadcases.supports import (
     clamped,
     combine_supports,
     elastic_ring_support,
     point_supports,
     simply_supported,
 )
+from platewright.fea.mesh.triangles import Mesh
 from platewright.fea.solve import UnderSupportedError, solve_system
 from platewright.geometry.model import Material
 

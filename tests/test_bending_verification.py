@@ -15,16 +15,16 @@ import pytest
 import shapely
 from test_bending import all_edges, assemble_plate, disk_mesh, square_mesh
 
-from platewright.fea.bending import (
+from platewright.fea.elements.bending import (
     bending_rigidity,
     isotropic_bending_matrix,
     nodal_load_vector,
     nodal_moments,
     orthotropic_bending_matrix,
 )
-from platewright.fea.bending_rigid import BENDING_MODE_NAMES, bending_rigid_modes
-from platewright.fea.mesher import mesh_polygon
-from platewright.fea.plate_supports import clamped, simply_supported
+from platewright.fea.elements.bending_rigid import BENDING_MODE_NAMES, bending_rigid_modes
+from platewright.fea.loadcases.supports import clamped, simply_supported
+from platewright.fea.mesh.mesher import mesh_polygon
 from platewright.fea.solve import solve_system
 
 E_MPA, NU, T_MM = 2000.0, 0.3, 2.0

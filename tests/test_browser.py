@@ -27,9 +27,9 @@ import numpy as np
 import pytest
 from matplotlib import image as mpimg
 
-from platewright.cli.cmd_compare import CompareCommand
+from platewright.cli.commands.compare import CompareCommand
 from platewright.cli.main import main
-from platewright.geometry.build import bundled_example_path, list_templates
+from platewright.geometry.plate.build import bundled_example_path, list_templates
 
 CHROMIUM = Path("/usr/bin/chromium")
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"

@@ -12,8 +12,8 @@ import math
 import pytest
 from shapely.geometry import Polygon
 
-from platewright.geometry.build import build_plates, list_templates
-from platewright.geometry.design import load_design, load_design_text
+from platewright.geometry.design.loader import load_design, load_design_text
+from platewright.geometry.plate.build import build_plates, list_templates
 
 STARTERS = {p.stem: p for p in list_templates()}
 CHORD_MM = 0.002  # polyline tolerance for the shapely checks below

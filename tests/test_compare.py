@@ -20,11 +20,11 @@ from pathlib import Path
 import pytest
 import yaml
 
-from platewright.cli.cmd_compare import CompareCommand, load_side
+from platewright.cli.commands.compare import CompareCommand, load_side
 from platewright.cli.main import main
-from platewright.geometry.build import list_templates
 from platewright.geometry.compare import compare_reports
 from platewright.geometry.errors import DesignError
+from platewright.geometry.plate.build import list_templates
 
 TEMPLATES = {p.stem: p for p in list_templates()}
 DECK = TEMPLATES["four_wheel_deck"]

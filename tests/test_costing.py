@@ -14,22 +14,22 @@ import numpy as np
 import pytest
 
 from platewright.cli.main import main
-from platewright.geometry.costing import (
+from platewright.geometry.library import get_material
+from platewright.geometry.model import Plate
+from platewright.geometry.plate.curves import Contour, circle
+from platewright.geometry.plate.cutpaths import cut_paths
+from platewright.geometry.plate.features import round_hole
+from platewright.geometry.plate.mass import mass_properties
+from platewright.geometry.plate.outlines import rounded_rect_outline
+from platewright.geometry.plate.pipeline import BuiltPlate
+from platewright.geometry.shop.costing import (
     QUOTE_BAND,
     combine_estimates,
     estimate_cut,
     estimate_plate,
     material_cost,
 )
-from platewright.geometry.curves import Contour, circle
-from platewright.geometry.cutpaths import cut_paths
-from platewright.geometry.features import round_hole
-from platewright.geometry.library import get_material
-from platewright.geometry.machines import get_machine, machine_from_mapping
-from platewright.geometry.mass import mass_properties
-from platewright.geometry.model import Plate
-from platewright.geometry.outlines import rounded_rect_outline
-from platewright.geometry.pipeline import BuiltPlate
+from platewright.geometry.shop.machines import get_machine, machine_from_mapping
 
 # invented round numbers chosen for this test (not a real machine)
 SHOP = machine_from_mapping({

@@ -15,7 +15,9 @@ import ezdxf
 import pytest
 
 from platewright.cli import main as cli_main
-from platewright.geometry.calibration import (
+from platewright.geometry.errors import DesignError
+from platewright.geometry.library import get_material
+from platewright.geometry.shop.calibration import (
     Measurements,
     derive_calibration,
     fit_allowance,
@@ -25,10 +27,8 @@ from platewright.geometry.calibration import (
     measurement_template,
     read_measurements,
 )
-from platewright.geometry.coupons import build_coupon, coupon_steps
-from platewright.geometry.errors import DesignError
-from platewright.geometry.library import get_material
-from platewright.geometry.machine_files import load_profile_file
+from platewright.geometry.shop.coupons import build_coupon, coupon_steps
+from platewright.geometry.shop.machine_files import load_profile_file
 
 
 def test_kerf_formulas_worked_example():

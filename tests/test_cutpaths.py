@@ -13,10 +13,10 @@ import pytest
 import shapely
 from geometry_cases import circle, rectangle, stadium
 
-from platewright.geometry.cutpaths import cut_paths, part_contours
 from platewright.geometry.errors import DesignError
 from platewright.geometry.model import Feature, Material, Plate
-from platewright.geometry.region import plate_region, to_polygon
+from platewright.geometry.plate.cutpaths import cut_paths, part_contours
+from platewright.geometry.plate.region import plate_region, to_polygon
 
 # An invented sheet for the tests; density of cast acrylic 1190 kg/m^3 (CRC Handbook range
 # 1.18-1.19 g/cm^3, see shared REFERENCE.md), kerf 0.2 mm (common practice for 3 mm acrylic).

@@ -17,14 +17,14 @@ import yaml
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from platewright.fea.loadcases import describe_load_cases
-from platewright.geometry import schema
-from platewright.geometry.build import bundled_example_path, list_templates, plate_kerf_mm
-from platewright.geometry.design import load_design, load_design_text
-from platewright.geometry.expressions import evaluate, resolve_references
-from platewright.geometry.overrides import apply_overrides, split_path
-from platewright.geometry.schema import describe_schema
-from platewright.geometry.yamlsource import parse_yaml
+from platewright.fea.loadcases.parse import describe_load_cases
+from platewright.geometry.design import schema
+from platewright.geometry.design.expressions import evaluate, resolve_references
+from platewright.geometry.design.loader import load_design, load_design_text
+from platewright.geometry.design.overrides import apply_overrides, split_path
+from platewright.geometry.design.schema import describe_schema
+from platewright.geometry.design.yamlsource import parse_yaml
+from platewright.geometry.plate.build import bundled_example_path, list_templates, plate_kerf_mm
 
 STARTERS = {p.stem: p for p in list_templates()}
 MACHINE_FILE = Path(bundled_example_path()).parent.parent / "machines" / "example_co2_60w.yaml"

@@ -21,9 +21,11 @@ from plate_factory import (
     slot_feature,
 )
 
-from platewright.geometry.curves import Contour
-from platewright.geometry.cutpaths import cut_paths
-from platewright.geometry.dxf_writer import (
+from platewright.geometry.model import CutContour, Engraving
+from platewright.geometry.plate.curves import Contour
+from platewright.geometry.plate.cutpaths import cut_paths
+from platewright.geometry.tolerances import MIN_SEGMENT_MM
+from platewright.geometry.writers.dxf import (
     LAYER_CUT_INNER,
     LAYER_CUT_OUTER,
     LAYER_ENGRAVE,
@@ -32,8 +34,6 @@ from platewright.geometry.dxf_writer import (
     polyline_vertices,
     write_plate_dxf,
 )
-from platewright.geometry.model import CutContour, Engraving
-from platewright.geometry.tolerances import MIN_SEGMENT_MM
 
 W, H, T, KERF = 120.0, 80.0, 3.0, 0.2  # mm; kerf typical of 3 mm acrylic (REFERENCE.md)
 M3_MEDIUM = 3.4  # ISO 273 medium clearance hole for M3, mm (REFERENCE.md)

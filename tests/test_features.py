@@ -10,7 +10,8 @@ from hypothesis import example, given, settings
 from hypothesis import strategies as st
 from shapely.geometry import Polygon
 
-from platewright.geometry.features import (
+from platewright.geometry.library import get_material, get_motor
+from platewright.geometry.plate.features import (
     bore,
     custom_mount,
     cutout,
@@ -21,8 +22,7 @@ from platewright.geometry.features import (
     slot,
     slotted_bore,
 )
-from platewright.geometry.library import get_material, get_motor
-from platewright.geometry.outlines import polygon_outline, rounded_rect_outline
+from platewright.geometry.plate.outlines import polygon_outline, rounded_rect_outline
 
 ACRYLIC = get_material("cast_acrylic")
 

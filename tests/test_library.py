@@ -7,7 +7,6 @@ from itertools import combinations
 
 import pytest
 
-from platewright.geometry.features import motor_mount
 from platewright.geometry.library import (
     check_laser_safe,
     clearance_hole_mm,
@@ -17,7 +16,8 @@ from platewright.geometry.library import (
     load_materials,
     load_motors,
 )
-from platewright.geometry.machines import (
+from platewright.geometry.plate.features import motor_mount
+from platewright.geometry.shop.machines import (
     MachineProfile,
     get_machine,
     kerf_for,

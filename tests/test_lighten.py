@@ -24,30 +24,30 @@ import shapely
 from plate_factory import make_plate, rect_contour
 from shapely.affinity import scale
 
-from platewright.cli.cmd_lighten import LightenCommand
+from platewright.cli.commands.lighten import LightenCommand
 from platewright.fea.analysis import analyse_plate
-from platewright.fea.design_region import (
+from platewright.fea.lighten.design_region import (
     LighteningSettings,
     design_region,
     lightening_section,
     settings_from_mapping,
 )
-from platewright.fea.hole_patterns import effective_pitch_mm, pattern_holes
-from platewright.fea.holes_from_density import (
+from platewright.fea.lighten.patterns import effective_pitch_mm, pattern_holes
+from platewright.fea.lighten.pipeline import lighten_plate
+from platewright.fea.lighten.tracing import (
     MIN_HOLE_SEGMENT_MM,
     hole_features,
     holes_from_density,
 )
-from platewright.fea.lighten import lighten_plate
-from platewright.fea.loadcases import parse_loads
-from platewright.fea.mesher import mesh_polygon
-from platewright.geometry.design import load_design
-from platewright.geometry.dxf_writer import LAYER_CUT_INNER, entity_feature_ids
+from platewright.fea.loadcases.parse import parse_loads
+from platewright.fea.mesh.mesher import mesh_polygon
+from platewright.geometry.design.loader import load_design
 from platewright.geometry.errors import DesignError
-from platewright.geometry.mass import mass_properties
-from platewright.geometry.pipeline import build_design
-from platewright.geometry.region import to_polygon
-from platewright.geometry.rules import check_plate
+from platewright.geometry.plate.mass import mass_properties
+from platewright.geometry.plate.pipeline import build_design
+from platewright.geometry.plate.region import to_polygon
+from platewright.geometry.plate.rules import check_plate
+from platewright.geometry.writers.dxf import LAYER_CUT_INNER, entity_feature_ids
 
 T = 3.0  # sheet thickness of the test tray, mm
 M3_MEDIUM = 3.4  # ISO 273 medium clearance hole for M3, mm (REFERENCE.md)
@@ -283,7 +283,7 @@ def test_plate_failing_as_designed_is_not_lightened(tray):
     _, _, plate, loads = tray
     from dataclasses import replace
 
-    from platewright.fea.loadcases import Limits
+    from platewright.fea.loadcases.parse import Limits
 
     tight = [replace(c, limits=Limits(max_deflection_mm=0.1)) for c in loads.cases]
     res = lighten_plate(plate, tight, settings=FAST)

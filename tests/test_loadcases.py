@@ -15,10 +15,10 @@ from hypothesis import strategies as st
 from plate_factory import make_plate, rect_contour
 
 from platewright.fea.analysis import analyse_design
-from platewright.fea.loadcases import describe_load_cases, parse_loads
-from platewright.geometry.build import build_plates
-from platewright.geometry.design import load_design_text
+from platewright.fea.loadcases.parse import describe_load_cases, parse_loads
+from platewright.geometry.design.loader import load_design_text
 from platewright.geometry.errors import DesignError
+from platewright.geometry.plate.build import build_plates
 
 BASE = """\
 name: load case test rig

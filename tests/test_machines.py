@@ -11,18 +11,18 @@ from pathlib import Path
 
 import pytest
 
-from platewright.cli.cmd_machines import MachinesCommand
+from platewright.cli.commands.machines import MachinesCommand
 from platewright.cli.main import main
 from platewright.geometry.errors import DesignError
 from platewright.geometry.library import get_material
-from platewright.geometry.machine_files import (
+from platewright.geometry.shop.machine_files import (
     describe_machine_profile,
     load_profile_file,
     read_profile_text,
     save_profile,
     set_measured,
 )
-from platewright.geometry.machines import (
+from platewright.geometry.shop.machines import (
     MACHINE_FIELDS,
     fit_allowances_for,
     get_machine,
@@ -156,7 +156,7 @@ def test_design_names_a_profile_file_relative_to_itself(tmp_path: Path, capsys):
 
 def test_library_loader_resolves_a_profile_file_like_the_command_line(tmp_path: Path):
     # a Python user of load_design gets the same profile as `platewright build`
-    from platewright.geometry.design import load_design
+    from platewright.geometry.design.loader import load_design
 
     (tmp_path / "profiles").mkdir()
     (tmp_path / "profiles" / "shop.yaml").write_text(FULL, encoding="utf-8")

@@ -18,10 +18,10 @@ import shapely
 import trimesh
 from geometry_cases import circle, rectangle, rounded_rectangle
 
-from platewright.geometry.curves import Contour
-from platewright.geometry.mass import combine, contour_moments, mass_properties
 from platewright.geometry.model import Feature, Material, Plate
-from platewright.geometry.region import plate_region
+from platewright.geometry.plate.curves import Contour
+from platewright.geometry.plate.mass import combine, contour_moments, mass_properties
+from platewright.geometry.plate.region import plate_region
 
 # Invented test sheet; density 1190 kg/m^3 is cast acrylic (CRC Handbook 1.18-1.19 g/cm^3).
 SHEET = Material(

@@ -10,12 +10,12 @@ from math import factorial
 import numpy as np
 import pytest
 
-from platewright.fea.constitutive import (
+from platewright.fea.elements.constitutive import (
     isotropic_plane_stress,
     material_plane_stress,
     orthotropic_plane_stress,
 )
-from platewright.fea.membrane import (
+from platewright.fea.elements.membrane import (
     NODE_POINTS,
     assemble_stiffness,
     body_force_vector,
@@ -25,9 +25,9 @@ from platewright.fea.membrane import (
     stiffness_matrices,
     von_mises,
 )
-from platewright.fea.quadratic import quadratic_mesh
-from platewright.fea.rigid import membrane_rigid_modes
-from platewright.fea.structured import (
+from platewright.fea.elements.membrane_rigid import membrane_rigid_modes
+from platewright.fea.elements.quadratic import quadratic_mesh
+from platewright.fea.mesh.structured import (
     cook_membrane_mesh,
     elliptic_membrane_mesh,
     plate_with_hole_quarter_mesh,

@@ -10,23 +10,23 @@ import pytest
 import skfem
 from skfem.models.elasticity import linear_elasticity
 
-from platewright.fea.constitutive import isotropic_plane_stress
-from platewright.fea.membrane import (
+from platewright.fea.elements.constitutive import isotropic_plane_stress
+from platewright.fea.elements.membrane import (
     assemble_stiffness,
     body_force_vector,
     edge_load_vector,
     element_strains,
     nodal_stresses,
 )
-from platewright.fea.quadratic import quadratic_mesh
-from platewright.fea.rigid import MEMBRANE_MODE_NAMES, membrane_rigid_modes
-from platewright.fea.solve import solve_system
-from platewright.fea.structured import (
+from platewright.fea.elements.membrane_rigid import MEMBRANE_MODE_NAMES, membrane_rigid_modes
+from platewright.fea.elements.quadratic import quadratic_mesh
+from platewright.fea.mesh.structured import (
     cook_membrane_mesh,
     elliptic_membrane_mesh,
     plate_with_hole_quarter_mesh,
     rectangle_mesh,
 )
+from platewright.fea.solve import solve_system
 
 # ----------------------------------------------------------------------------------- helpers
 
@@ -384,7 +384,7 @@ def test_unstructured_mesh_same_answer_as_scikit_fem() -> None:
     # with two holes, clamped at x = 0, T6 under a body force (scikit-fem as reference).
     import shapely
 
-    from platewright.fea.mesher import mesh_polygon
+    from platewright.fea.mesh.mesher import mesh_polygon
 
     plate = shapely.box(0.0, 0.0, 60.0, 30.0)
     plate = plate.difference(shapely.Point(20.0, 15.0).buffer(6.0, 16))

@@ -18,11 +18,11 @@ from hypothesis import strategies as st
 from scipy.spatial import Delaunay
 from shapely.geometry import Point, box
 
-from platewright.fea.mesh import Mesh, flip_to_delaunay, triangle_angles_deg
-from platewright.fea.mesher import TaggedRing, mesh_polygon, mesh_rings
-from platewright.fea.plate_input import plate_rings, sample_contour
-from platewright.fea.sizing import bayer_matrix
-from platewright.geometry.curves import circle
+from platewright.fea.mesh.mesher import TaggedRing, mesh_polygon, mesh_rings
+from platewright.fea.mesh.plate_input import plate_rings, sample_contour
+from platewright.fea.mesh.sizing import bayer_matrix
+from platewright.fea.mesh.triangles import Mesh, flip_to_delaunay, triangle_angles_deg
+from platewright.geometry.plate.curves import circle
 
 sys.path.insert(0, str(Path(__file__).parent))
 from plate_factory import make_plate, rect_contour, round_hole, slot_feature  # noqa: E402

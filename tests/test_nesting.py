@@ -19,14 +19,14 @@ import shapely
 import yaml
 from plate_factory import hand_cut_paths, make_plate, rect_contour, round_hole
 
-from platewright.cli.cmd_nest import NestCommand
-from platewright.geometry.build import bundled_example_path
-from platewright.geometry.curves import Contour
-from platewright.geometry.dxf_writer import entity_feature_ids
+from platewright.cli.commands.nest import NestCommand
 from platewright.geometry.errors import DesignError
 from platewright.geometry.model import CutContour
-from platewright.geometry.nesting import NestItem, SheetSize, nest_parts
-from platewright.geometry.sheet_writer import sheet_svg_string, write_sheet_dxf
+from platewright.geometry.plate.build import bundled_example_path
+from platewright.geometry.plate.curves import Contour
+from platewright.geometry.shop.nesting import NestItem, SheetSize, nest_parts
+from platewright.geometry.writers.dxf import entity_feature_ids
+from platewright.geometry.writers.sheet import sheet_svg_string, write_sheet_dxf
 
 #: Geometric slack of the checks (mm): polygon chords (0.005 mm sagitta) plus rounding.
 TOL_MM = 0.02

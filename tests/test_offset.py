@@ -21,9 +21,9 @@ from geometry_cases import (
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from platewright.geometry.curves import Contour
-from platewright.geometry.offset import OffsetError, offset_contour
-from platewright.geometry.region import to_polygon
+from platewright.geometry.plate.curves import Contour
+from platewright.geometry.plate.offset import OffsetError, offset_contour
+from platewright.geometry.plate.region import to_polygon
 
 FINE_TOL_MM = 1e-4  # chord tolerance for polygon comparisons in this file
 QUAD_SEGS = 256  # shapely buffer: segments per quarter circle of a round join

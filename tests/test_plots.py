@@ -315,7 +315,7 @@ def test_legend_html_states_min_max_units_and_caution():
 
 def test_plotting_and_the_commands_do_not_import_matplotlib():
     code = ("import sys, numpy as np\n"
-            "import platewright.cli.commands\n"
+            "import platewright.cli.commands.registry\n"
             "from platewright.fea.plots import plot_field\n"
             "from platewright.fea.results import CaseFields\n"
             "from types import SimpleNamespace\n"

@@ -17,11 +17,11 @@ import math
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from platewright.geometry.design import load_design_text
+from platewright.geometry.design.loader import load_design_text
 from platewright.geometry.errors import DesignError
-from platewright.geometry.offset import offset_contour
-from platewright.geometry.pipeline import build_design
-from platewright.geometry.region import to_polygon
+from platewright.geometry.plate.offset import offset_contour
+from platewright.geometry.plate.pipeline import build_design
+from platewright.geometry.plate.region import to_polygon
 
 TOL_MM = 0.02  # polyline view at 0.005 mm chord tolerance on both sides, plus margin
 

@@ -17,9 +17,9 @@ from plate_factory import (
     slot_feature,
 )
 
-from platewright.geometry.curves import circle
 from platewright.geometry.model import Feature
-from platewright.geometry.rules import RULE_NAMES, check_plate, has_errors
+from platewright.geometry.plate.curves import circle
+from platewright.geometry.plate.rules import RULE_NAMES, check_plate, has_errors
 
 T = 3.0  # sheet thickness, mm
 KERF = 0.2  # mm, typical CO2 kerf in 3 mm acrylic (REFERENCE.md, common practice)

@@ -8,17 +8,17 @@ import pytest
 import scipy.sparse as sp
 
 from platewright.fea.assembly import assemble_matrix, assemble_vector, element_dofs
-from platewright.fea.constitutive import isotropic_plane_stress
-from platewright.fea.membrane import assemble_stiffness, body_force_vector
-from platewright.fea.quadratic import quadratic_mesh
-from platewright.fea.rigid import MEMBRANE_MODE_NAMES, membrane_rigid_modes
+from platewright.fea.elements.constitutive import isotropic_plane_stress
+from platewright.fea.elements.membrane import assemble_stiffness, body_force_vector
+from platewright.fea.elements.membrane_rigid import MEMBRANE_MODE_NAMES, membrane_rigid_modes
+from platewright.fea.elements.quadratic import quadratic_mesh
+from platewright.fea.mesh.structured import rectangle_mesh
 from platewright.fea.solve import (
     MechanismError,
     UnderSupportedError,
     free_rigid_motions,
     solve_system,
 )
-from platewright.fea.structured import rectangle_mesh
 
 BAR_MODE = np.ones((3, 1))  # rigid translation of a 3-node axial spring chain
 BAR_NAME = ("translation along x",)

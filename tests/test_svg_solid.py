@@ -16,16 +16,16 @@ import shapely
 import trimesh
 from plate_factory import make_plate, rect_contour, round_hole, rounded_rect_contour, slot_feature
 
-from platewright.geometry.cutpaths import cut_paths
 from platewright.geometry.model import Engraving
-from platewright.geometry.region import plate_region
-from platewright.geometry.solid_writer import (
+from platewright.geometry.plate.cutpaths import cut_paths
+from platewright.geometry.plate.region import plate_region
+from platewright.geometry.writers.solid import (
     extrude_region,
     plate_solid,
     write_plate_glb,
     write_plate_stl,
 )
-from platewright.geometry.svg_writer import MARGIN_MM, plate_svg_string, write_plate_svg
+from platewright.geometry.writers.svg import MARGIN_MM, plate_svg_string, write_plate_svg
 
 SVG_NS = "{http://www.w3.org/2000/svg}"
 W, H, R, T, KERF = 100.0, 60.0, 8.0, 3.0, 0.2  # mm
@@ -328,7 +328,7 @@ def test_extrude_refuses_non_positive_thickness():
 def test_writers_do_not_import_trimesh():
     # the command line must not pay for importing trimesh (it is loaded only by plate_solid)
     code = (
-        "import sys, platewright.geometry.solid_writer, platewright.cli.commands; "
+        "import sys, platewright.geometry.writers.solid, platewright.cli.commands.registry; "
         "sys.exit('trimesh' in sys.modules)"
     )
     assert subprocess.run([sys.executable, "-c", code], check=False).returncode == 0

@@ -23,13 +23,13 @@ from pathlib import Path
 import pytest
 import yaml
 
-from platewright.cli.cmd_sweep import SweepCommand
-from platewright.cli.sweep import sweep_csv
-from platewright.cli.sweep_engine import parse_vary, run_sweep, sweep_jobs, validate_sweep
-from platewright.geometry.build import list_templates
-from platewright.geometry.design import load_design
+from platewright.cli.commands.sweep import SweepCommand
+from platewright.cli.sweep.engine import parse_vary, run_sweep, sweep_jobs, validate_sweep
+from platewright.cli.sweep.outputs import sweep_csv
+from platewright.geometry.design.loader import load_design
 from platewright.geometry.errors import DesignError
-from platewright.geometry.pipeline import build_design
+from platewright.geometry.plate.build import list_templates
+from platewright.geometry.plate.pipeline import build_design
 
 TEMPLATES = {p.stem: p for p in list_templates()}
 DECK = TEMPLATES["four_wheel_deck"]

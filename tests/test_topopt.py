@@ -17,14 +17,14 @@ from scipy.spatial import cKDTree
 from skfem.helpers import ddot, sym_grad, trace
 
 from platewright.fea.analysis import analyse_plate
-from platewright.fea.loadcases import parse_loads
-from platewright.fea.mesh import Mesh
-from platewright.fea.mesher import mesh_rings
-from platewright.fea.plate_input import plate_rings
-from platewright.fea.structured import rectangle_mesh
-from platewright.fea.topopt import DensityModel, TopOptSettings, density_filter, optimise
-from platewright.fea.topopt_grid import mbb_model, q4_element_stiffness
-from platewright.fea.topopt_plate import PlateDensityModel
+from platewright.fea.lighten.mbb_grid import mbb_model, q4_element_stiffness
+from platewright.fea.lighten.plate_density import PlateDensityModel
+from platewright.fea.lighten.simp import DensityModel, TopOptSettings, density_filter, optimise
+from platewright.fea.loadcases.parse import parse_loads
+from platewright.fea.mesh.mesher import mesh_rings
+from platewright.fea.mesh.plate_input import plate_rings
+from platewright.fea.mesh.structured import rectangle_mesh
+from platewright.fea.mesh.triangles import Mesh
 from platewright.geometry.errors import DesignError
 from platewright.geometry.model import Material
 

@@ -1,0 +1,190 @@
+"""The regular lightening style: an array of round, slot or triangular holes graded by density.
+
+Sites lie on a lattice centred on the design region's bounding box (so a plate symmetric about
+that centre gets a symmetric array) with pitch ``p = settings.pattern_pitch_mm`` (raised where
+needed so the largest hole is 1.5 x ``min_hole_mm``, see :func:`effective_pitch_mm`):
+
+- ``round``: a triangular (hexagonal-packing) lattice, one circle per site, diameter at most
+  ``p - web`` (the web between neighbours is then at least ``web``);
+- ``slot``: rows of stadium slots along x, ``p`` apart along x and ``max(width + web, p / 2)``
+  apart along y, length at most ``p - web``;
+- ``triangle``: the triangles of a triangular lattice of side ``p`` (alternately pointing up
+  and down, so the webs form a truss of equilateral triangles), each hole concentric with its
+  cell, with an inscribed radius at most ``p / (2 sqrt 3) - web / 2`` (two neighbours share an
+  edge of the lattice, so the web between them is at least ``web``), corners filleted with the
+  corner radius.
+
+Grading: the density ``rho`` at a site is the area-weighted mean of the element densities within
+``p / 2``; a site gets a hole when ``rho < level``, of size fraction
+``f = min(1, 2 (level - rho) / level)`` between the smallest (``min_hole_mm``) and the largest
+size. A hole must lie inside the design region (the ring round every feature, the outline band
+and the solid zones stay solid); a round hole is also shrunk to keep the edge-distance rule
+``max(1.5 t, d)`` to the outline (common practice). Lengths mm.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import shapely
+from scipy.spatial import cKDTree
+
+from platewright.fea.lighten.design_region import DesignRegion
+from platewright.fea.lighten.tracing import LIGHTENING_KIND
+from platewright.geometry.model import Feature
+from platewright.geometry.plate.features import round_hole, slot
+from platewright.geometry.plate.outlines import polygon_outline
+
+__all__ = ["effective_pitch_mm", "lattice_sites", "site_densities", "pattern_holes"]
+
+_SQRT3 = math.sqrt(3.0)
+
+
+def effective_pitch_mm(region: DesignRegion, shape: str) -> float:
+    """The lattice pitch used for ``shape``, mm: the settings' pitch, raised where needed so the
+    largest hole is at least 1.5 x ``min_hole_mm`` wide with a web between neighbours."""
+    s = region.settings
+    p, web, dmin = float(s.pattern_pitch_mm), float(s.min_web_mm), float(s.min_hole_mm)
+    if shape == "triangle":
+        return max(p, 2.0 * _SQRT3 * (0.75 * dmin + web / 2.0))
+    return max(p, 1.5 * dmin + web)
+
+
+def lattice_sites(region: DesignRegion, shape: str) -> list[tuple[float, float, bool]]:
+    """Candidate sites (x mm, y mm, points_up) of the lattice for ``shape``, rows from the
+    bottom. ``points_up`` matters for triangles only."""
+    s = region.settings
+    p = effective_pitch_mm(region, shape)
+    x0, y0, x1, y1 = region.material.bounds
+    cx, cy = (x0 + x1) / 2.0, (y0 + y1) / 2.0
+    nx = int(math.ceil((x1 - x0) / p)) + 2
+    sites: list[tuple[float, float, bool]] = []
+    if shape == "slot":
+        width = max(float(s.min_hole_mm), 0.3 * p)
+        dy = max(width + float(s.min_web_mm), p / 2.0)
+        ny = int(math.ceil((y1 - y0) / dy)) + 2
+        for k in range(-ny, ny + 1):
+            shift = 0.5 * p * (abs(k) % 2)
+            for j in range(-nx, nx + 1):
+                sites.append((cx + shift + j * p, cy + k * dy, True))
+        return sites
+    dy = p * _SQRT3 / 2.0
+    ny = int(math.ceil((y1 - y0) / dy)) + 2
+    for k in range(-ny, ny + 1):
+        if shape == "round":
+            shift = 0.5 * p * (abs(k) % 2)
+            for j in range(-nx, nx + 1):
+                sites.append((cx + shift + j * p, cy + k * dy, True))
+        else:
+            # row k of triangles spans y in [cy + (k - 1/2) dy, cy + (k + 1/2) dy]; centroids of
+            # up-triangles sit a third of the height above the row bottom, down-triangles two
+            # thirds; the lattice is mirror-symmetric about x = cx and y = cy.
+            base = cy + (k - 0.5) * dy
+            shift = 0.5 * p * (abs(k) % 2)
+            for j in range(-2 * nx, 2 * nx + 1):
+                up = (j % 2 == 0) == (k % 2 == 0)
+                x = cx + shift + j * p / 2.0
+                y = base + (dy / 3.0 if up else 2.0 * dy / 3.0)
+                sites.append((x, y, up))
+    return sites
+
+
+def site_densities(sites_xy: np.ndarray, nodes: np.ndarray, triangles: np.ndarray,
+                   densities: np.ndarray, radius_mm: float) -> np.ndarray:
+    """Area-weighted mean element density within ``radius_mm`` of each site.
+
+    sites_xy: (k, 2) float mm; nodes: (n, 2) float mm; triangles: (m, 3) int; densities: (m,)
+    float. Sites with no element centroid in reach get 1 (solid). Returns (k,) float.
+    """
+    p = nodes[triangles]
+    cent = p.mean(axis=1)
+    area = 0.5 * np.abs((p[:, 1, 0] - p[:, 0, 0]) * (p[:, 2, 1] - p[:, 0, 1])
+                        - (p[:, 2, 0] - p[:, 0, 0]) * (p[:, 1, 1] - p[:, 0, 1]))
+    tree = cKDTree(cent)
+    out = np.ones(len(sites_xy))
+    for i, near in enumerate(tree.query_ball_point(np.asarray(sites_xy, float), radius_mm)):
+        if near:
+            out[i] = float(np.average(densities[near], weights=area[near]))
+    return out
+
+
+def _triangle(x: float, y: float, up: bool, inradius: float) -> np.ndarray:
+    """Corners (3, 2) of an equilateral triangle of inscribed radius ``inradius`` (mm),
+    counter-clockwise, centred on (x, y)."""
+    circ = 2.0 * inradius
+    angles = np.radians([90.0, 210.0, 330.0] if up else [270.0, 30.0, 150.0])
+    return np.column_stack([x + circ * np.cos(angles), y + circ * np.sin(angles)])
+
+
+def pattern_holes(region: DesignRegion, nodes: np.ndarray, triangles: np.ndarray,
+                  densities: np.ndarray, level: float) -> tuple[Feature, ...]:
+    """The graded array (see the module text) at the density threshold ``level`` (0: no holes;
+    a site whose density is below it gets a hole).
+
+    nodes (n, 2) float mm, triangles (m, 3) int, densities (m,) float: the optimised field.
+    Returns Features of kind ``lightening`` with exact contours, ids ``lighten1``... in site
+    order (rows from the bottom, left to right).
+    """
+    s = region.settings
+    shape = s.pattern_shape
+    if level <= 0.0 or region.free.is_empty:
+        return ()
+    p, web = effective_pitch_mm(region, shape), float(s.min_web_mm)
+    dmin, r = float(s.min_hole_mm), float(s.corner_radius_mm)
+    sites = lattice_sites(region, shape)
+    xy = np.array([(x, y) for x, y, _ in sites])
+    inside = shapely.contains_xy(region.free, xy[:, 0], xy[:, 1])
+    sites = [st for st, ok in zip(sites, inside) if ok]
+    if not sites:
+        return ()
+    xy = np.array([(x, y) for x, y, _ in sites])
+    rho = site_densities(xy, nodes, triangles, np.asarray(densities, float), p / 2.0)
+    free = region.free
+    boundary = region.free.boundary
+    outline = region.material.exterior
+    thick = region.thickness_mm
+    out: list[Feature] = []
+    for (x, y, up), rh in zip(sites, rho):
+        if rh >= level:
+            continue
+        f = min(1.0, 2.0 * (level - rh) / level)
+        fid = f"lighten{len(out) + 1}"
+        pt = shapely.Point(x, y)
+        room = float(boundary.distance(pt))
+        if shape == "round":
+            d = dmin + f * (p - web - dmin)
+            edge = float(outline.distance(pt))
+            d = min(d, 2.0 * room - 1e-3, 2.0 * edge / 3.0 - 1e-3, 2.0 * (edge - 1.5 * thick) - 1e-3)
+            if d < dmin:
+                continue
+            out.append(round_hole(fid, (x, y), d, kind=LIGHTENING_KIND,
+                                  note="lightening hole (finite-element estimate: confirm by test)"))
+        elif shape == "slot":
+            width = max(dmin, 0.3 * p)
+            length = width + f * (p - web - width)
+            feat = None
+            while length >= width:
+                cand = slot(fid, (x, y), length, width, kind=LIGHTENING_KIND)
+                poly = shapely.Polygon(cand.contours[0].to_points(0.02))
+                if free.contains(poly):
+                    feat = cand
+                    break
+                length -= 0.25 * width
+            if feat is not None:
+                out.append(feat)
+        else:
+            rin_max = p / (2.0 * _SQRT3) - web / 2.0
+            rin = dmin / 2.0 + f * (rin_max - dmin / 2.0)
+            if rin < dmin / 2.0 or rin <= r:
+                continue
+            corners = _triangle(x, y, up, rin)
+            contour = polygon_outline(fid, [tuple(c) for c in corners], r).contours[0].reversed()
+            poly = shapely.Polygon(contour.to_points(0.02))
+            if not free.contains(poly):
+                continue
+            out.append(Feature(id=fid, kind=LIGHTENING_KIND, center_mm=(x, y), contours=(contour,),
+                               dims={"inscribed_diameter_mm": 2.0 * rin, "corner_radius_mm": r},
+                               note="lightening hole (finite-element estimate: confirm by test)"))
+    return tuple(out)
+

@@ -1,0 +1,325 @@
+"""The lightening pipeline: design region -> SIMP densities -> holes -> proof by real-geometry FE.
+
+``lighten_plate`` for one plate:
+
+1. analyse the plate as designed (fea.analysis.analyse_plate): the "before" figures; a plate
+   that already fails a limit is not lightened;
+2. build the design region (fea.design_region) and mesh the plate; elements whose centroid lies
+   outside the region are passive (solid);
+3. one SIMP optimisation (fea.topopt.optimise on fea.topopt_plate.PlateDensityModel) at a
+   volume fraction of the design region chosen from the slack of the limits: the tighter the
+   limits, the more material it keeps;
+4. a search over hole sets: the level is the share of the design region (ranked by density,
+   lightest first) that may become holes; it sets the density threshold below which material
+   becomes a hole (organic) or that grades a regular array (pattern, fea.hole_patterns). The
+   distinct hole sets of 16 levels, ordered by hole area, are searched by interpolating the
+   worst utilisation of any limit in hole area (bracketed by the plate as designed and the
+   first failing set), with sets between two neighbours made on demand by halving the level
+   or, failing that, by shrinking the holes of the failing set evenly.
+   On a symmetric problem (mirror-symmetric design region and density field) the density is
+   averaged with its mirror image and the holes cut to their mirror images.
+   Every candidate is a plate WITH the new holes as Features of kind ``lightening`` (ids
+   ``lighten1``, ...), checked by geometry.rules.check_plate (holes with an error or a web,
+   edge-distance or size warning are dropped) and re-meshed and re-solved by analyse_plate;
+   a candidate passes when every case meets every limit. The lightest passing candidate is kept;
+   when none passes, no holes are suggested. Nothing unverified is ever returned;
+5. the same input gives the same output (no randomness; ties broken by position).
+
+Lengths mm, masses g, times s. Every figure is a finite-element ESTIMATE to be confirmed by
+test before the part carries a load.
+
+The hole sets, the rules for new holes and the verification of a candidate are in
+:mod:`.lighten_search`; this module holds the pipeline and the search loop.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from collections.abc import Mapping, Sequence
+from dataclasses import replace
+from typing import Any
+
+import numpy as np
+import shapely
+
+from platewright.fea.analysis import analyse_plate, total_vehicle_mass_g
+from platewright.fea.lighten.design_region import (
+    DesignRegion,
+    LighteningSettings,
+    design_region,
+    lightening_section,
+    settings_from_mapping,
+)
+from platewright.fea.lighten.plate_density import PlateDensityModel
+from platewright.fea.lighten.results import Candidate, LighteningResult
+from platewright.fea.lighten.search import (
+    RULES_FOR_NEW_HOLES,
+    Progress,
+    _hole_sets,
+    _Job,
+    _refine,
+    _utilisation,
+    _worst,
+    with_holes,
+)
+from platewright.fea.lighten.simp import TopOptSettings, optimise
+from platewright.fea.lighten.tracing import hole_features, level_thresholds, mirror_lines, symmetrised
+from platewright.fea.loadcases.parse import Component, LoadCase, parse_loads
+from platewright.fea.mesh.mesher import mesh_rings
+from platewright.fea.mesh.plate_input import plate_rings
+from platewright.fea.results import PlateAnalysis
+from platewright.geometry.model import Feature, Plate
+from platewright.geometry.plate.cutpaths import cut_paths
+from platewright.geometry.plate.mass import mass_properties
+
+__all__ = ["lighten_plate", "lighten_design", "with_holes", "RULES_FOR_NEW_HOLES"]
+
+#: Utilisation the level search aims at (just below the limits).
+_TARGET = 0.995
+
+
+def _slack(before: PlateAnalysis) -> float:
+    """Smallest ratio allowed / present over every limit (>= 1 when the plate passes)."""
+    ratios = []
+    for case in before.cases:
+        for chk in case.checks:
+            if chk.value is None or chk.limit is None or chk.value <= 0:
+                continue
+            if chk.name == "min_safety_factor":
+                ratios.append(chk.value / chk.limit)
+            else:
+                ratios.append(chk.limit / chk.value)
+    return min(ratios) if ratios else 2.0
+
+
+def _volume_fraction(slack: float) -> float:
+    """SIMP volume bound on the design region from the slack (our choice, stated here, tuned
+    on the bundled deck by benchmarks/bench_lighten.py): the bending stiffness of a plate
+    grows like its thickness cubed, so a slack s in deflection allows roughly a share
+    ``s^(-1/3)`` of the material; 0.1 less, clipped to [0.35, 0.85], so the density ranking
+    the level search works on stays informative."""
+    return float(np.clip(slack ** (-1.0 / 3.0) - 0.1, 0.35, 0.85))
+
+
+def _densities(job: _Job, region: DesignRegion, slack: float,
+               settings: LighteningSettings) -> tuple[np.ndarray, np.ndarray, np.ndarray, int, float]:
+    """(nodes (n, 2), triangles (m, 3), densities (m,), optimiser iterations, volume fraction)."""
+    s = region.settings
+    h = float(s.mesh_size_mm)
+    mesh = mesh_rings(plate_rings(job.plate, h), h)
+    model = PlateDensityModel(job.plate, mesh, job.cases, components=job.components,
+                              vehicle_mass_g=job.vehicle_mass_g)
+    cx, cy = model.centroids[:, 0], model.centroids[:, 1]
+    free = shapely.contains_xy(region.free, cx, cy) if not region.free.is_empty else \
+        np.zeros(model.n_elements, bool)
+    passive = ~free
+    if passive.all():
+        return mesh.nodes, mesh.triangles, np.ones(model.n_elements), 0, 1.0
+    vf = _volume_fraction(slack)
+    top = TopOptSettings(rmin_mm=max(2.0 * h, 2.0 * float(s.corner_radius_mm)),
+                         max_iter=settings.max_iter, tol_change=0.02)
+
+    def report(it: int, obj: float, vol: float) -> None:
+        job.say(f"{job.plate.name}: optimiser iteration {it}, objective {obj:.4g}, "
+                f"volume {vol:.3f}")
+
+    res = optimise(model, vf, top, passive_solid=passive, progress=report)
+    return mesh.nodes, mesh.triangles, np.asarray(res.densities), res.iterations, vf
+
+
+def lighten_plate(
+    plate: Plate,
+    cases: Sequence[LoadCase],
+    *,
+    style: str = "organic",
+    settings: LighteningSettings | None = None,
+    components: Sequence[Component] = (),
+    vehicle_mass_g: float | None = None,
+    size_mm: float | None = None,
+    method: str = "auto",
+    before: PlateAnalysis | None = None,
+    densities: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None,
+    progress: Progress | None = None,
+) -> LighteningResult:
+    """Lightening holes for ``plate`` that keep every case of ``cases`` within its limits.
+
+    style: "organic" (holes traced from the density field) or "pattern" (a regular array graded
+    by it; shape from ``settings.pattern_shape``). settings: LighteningSettings (None: defaults
+    from the plate). components, vehicle_mass_g (g), size_mm (element size of the verifying
+    analyses, mm; None: each case's), method: as in analyse_plate. before: the analysis of the
+    plate as designed under these same cases, when already run. densities: (nodes (n, 2),
+    triangles (m, 3), element densities (m,)) to use instead of running the optimiser (e.g.
+    the other style's run).
+    progress: called with short texts. See the module text for the method. Raises ValueError
+    when no case acts on the plate, DesignError for bad load cases.
+    """
+    t_all = time.perf_counter()
+    settings = replace(settings or LighteningSettings(), style=style)
+    mine = tuple(c for c in cases if c.plate == plate.name)
+    if not mine:
+        raise ValueError(f"no load case acts on plate '{plate.name}'")
+    vmass = vehicle_mass_g if vehicle_mass_g is not None else total_vehicle_mass_g([plate], components)
+    job = _Job(plate, mine, tuple(components), vmass, size_mm, method, progress)
+    timings: dict[str, float] = {}
+    t0 = time.perf_counter()
+    if before is None:
+        job.say(f"{plate.name}: checking the plate as designed")
+        before = analyse_plate(plate, mine, components=components, vehicle_mass_g=vmass,
+                               size_mm=size_mm, method=method)
+    timings["before"] = time.perf_counter() - t0
+    region = design_region(plate, settings, cases=mine, components=components)
+    m0 = mass_properties(plate).mass_g
+    cut0 = cut_paths(plate)
+    notes: list[str] = []
+    iterations, vf = 0, 1.0
+    density_field = None
+    candidates: list[Candidate] = []
+    best: tuple[float, tuple[Feature, ...], Plate, PlateAnalysis] | None = None
+    if not before.passes:
+        notes.append("the plate as designed already fails a limit: no lightening suggested")
+    elif region.free.area < math.pi * (region.settings.min_hole_mm / 2.0) ** 2:
+        notes.append("the design region (plate minus keep-outs) is too small for any hole")
+    else:
+        t0 = time.perf_counter()
+        slack = _slack(before)
+        if densities is None:
+            job.say(f"{plate.name}: optimising the material layout")
+            nodes, tris, dens, iterations, vf = _densities(job, region, slack, settings)
+        else:
+            nodes, tris, dens = densities
+        density_field = (nodes, tris, dens)
+        timings["optimise"] = time.perf_counter() - t0
+
+        u0 = _utilisation(before)
+        mirrors = mirror_lines(region, nodes, tris, dens)
+        if mirrors:
+            dens = symmetrised(dens, nodes, tris, mirrors)
+            notes.append("symmetric problem: the density field was averaged with its mirror image "
+                         "so the holes come out symmetric")
+        to_threshold = level_thresholds(nodes, tris, dens, region)
+        t0 = time.perf_counter()
+        sets = _hole_sets(style, nodes, tris, dens, region, to_threshold, mirrors=mirrors)
+        timings["holes"] = time.perf_counter() - t0
+
+        def make(holes: Any) -> tuple[Feature, ...]:
+            if style == "organic":
+                return hole_features(holes, region.settings.chord_tol_mm)
+            return holes
+
+        # Search over the distinct hole sets, ordered by hole area: u(set) is the worst
+        # utilisation of any limit (1 = at the limit). The bracket starts at "no holes" (the
+        # plate as designed, u0) and "beyond the largest set"; each step interpolates u
+        # linearly in hole area to aim just below 1, so about log2(sets) solves suffice.
+        lo, u_lo, a_lo = -1, u0, 0.0
+        hi, u_hi, a_hi = len(sets), math.inf, math.inf
+        t0 = time.perf_counter()
+        while len(candidates) < settings.max_candidates:
+            if hi - lo <= 1:  # neighbours in the list: look for a set between them
+                if not _refine(sets, lo, hi, style, nodes, tris, dens, region, to_threshold,
+                               mirrors):
+                    break
+                hi += 1
+            if not candidates:
+                want = (1.0 - vf) * sets[-1][1]
+            elif math.isfinite(u_hi):
+                want = a_lo + (_TARGET - u_lo) * (a_hi - a_lo) / max(u_hi - u_lo, 1e-12)
+            else:
+                want = math.inf if u_lo <= u0 else a_lo * (_TARGET - u0) / (u_lo - u0)
+            i = lo + 1
+            while i + 1 < hi and sets[i + 1][1] <= want:
+                i += 1
+            level, area, raw_holes = sets[i]
+            tc = time.perf_counter()
+            holes = make(raw_holes)
+            job.say(f"{plate.name}: verifying {len(holes)} holes at level {level:.3f}")
+            kept, holed, analysis = job.verify(holes)
+            if analysis is None:
+                hi, u_hi, a_hi = i, 10.0, area
+                continue
+            mass = mass_properties(holed).mass_g
+            u = _utilisation(analysis)
+            candidates.append(Candidate(level, len(kept), mass, analysis.passes,
+                                        _worst(analysis), time.perf_counter() - tc))
+            if analysis.passes:
+                lo, u_lo, a_lo = i, u, area
+                if best is None or mass < best[0] - 1e-9:
+                    best = (mass, kept, holed, analysis)
+            else:
+                hi, u_hi, a_hi = i, max(u, 1.0 + 1e-9), area
+        timings["verify"] = time.perf_counter() - t0
+        if best is None:
+            notes.append("no candidate kept every case within its limits: no holes suggested")
+    if best is None:
+        holes_out, after_plate, after = (), plate, before
+        m1, cut1 = m0, cut0
+    else:
+        m1, holes_out, after_plate, after = best
+        cut1 = cut_paths(after_plate)
+    timings["total"] = time.perf_counter() - t_all
+    return LighteningResult(
+        plate=plate, lightened=after_plate, holes=holes_out, style=style, before=before,
+        after=after, mass_before_g=m0, mass_after_g=m1,
+        cut_length_before_mm=float(sum(c.path.length() for c in cut0)),
+        cut_length_after_mm=float(sum(c.path.length() for c in cut1)),
+        pierces_before=len(cut0), pierces_after=len(cut1), candidates=tuple(candidates),
+        optimiser_iterations=iterations, volume_fraction=vf,
+        design_region_fraction=region.free_fraction,
+        pattern_shape=region.settings.pattern_shape if style == "pattern" else "",
+        timings_s=timings, notes=tuple(notes), density=density_field)
+
+
+def _design_settings(design: Any) -> dict | None:
+    """The validated ``lightening:`` section of ``design`` (None when absent)."""
+    raw = getattr(design, "lightening", None)
+    return raw if raw is not None else lightening_section(design)
+
+
+def lighten_design(
+    design: Any,
+    plates: Sequence[Plate],
+    *,
+    styles: Sequence[str] | None = None,
+    settings: LighteningSettings | None = None,
+    overrides: Mapping[str, Any] | None = None,
+    size_mm: float | None = None,
+    method: str = "auto",
+    progress: Progress | None = None,
+    analyses: Sequence[PlateAnalysis] = (),
+) -> list[LighteningResult]:
+    """Lighten every plate of ``design`` that has load cases, in every style of ``styles``.
+
+    styles: None: the design's ``lightening.style`` ("both" = organic and pattern). settings:
+    replaces the design's ``lightening:`` section; overrides: LighteningSettings field -> value
+    applied on top (e.g. ``{"pattern_shape": "slot"}``). analyses: already-run analyses of the plates
+    as designed (reused as "before"). When both styles run on a plate they share one
+    optimisation. Returns one result per plate and style, in plate order.
+    """
+    loads = parse_loads(design, plates)
+    raw = _design_settings(design) or {}
+    vmass = loads.vehicle_mass_g
+    if vmass is None:
+        vmass = total_vehicle_mass_g(plates, loads.components)
+    wanted = raw.get("plates") or None
+    by_plate = {a.plate: a for a in analyses}
+    out: list[LighteningResult] = []
+    for plate in plates:
+        cases = [c for c in loads.cases if c.plate == plate.name]
+        if not cases or (wanted and plate.name not in wanted):
+            continue
+        s = settings or settings_from_mapping(raw, plate.name)
+        if overrides:
+            s = replace(s, **dict(overrides))
+        chosen = list(styles) if styles else (["organic", "pattern"] if raw.get("style") == "both"
+                                               else [raw.get("style") or s.style])
+        before = by_plate.get(plate.name)
+        shared = None
+        for style in chosen:
+            res = lighten_plate(plate, cases, style=style, settings=s,
+                                components=loads.components, vehicle_mass_g=vmass,
+                                size_mm=size_mm, method=method, before=before,
+                                densities=shared, progress=progress)
+            before = res.before
+            out.append(res)
+            shared = shared or res.density
+    return out

@@ -1,0 +1,440 @@
+"""Conforming Delaunay triangle mesher for plates with holes.
+
+Method (a conforming Delaunay mesher with distmesh smoothing):
+
+1. every input ring is kept as a chain of boundary edges, each input segment cut into pieces of
+   the local size (new points lie ON the segment) - see :mod:`.sizing` for the size field, which
+   is refined near holes, narrow webs and short input segments and graded into the interior;
+2. interior nodes come from nested, dithered triangular lattices that follow the size field
+   (:func:`.sizing.graded_lattice`), dropped outside the region and near the boundary;
+3. Delaunay triangulation (Qhull via scipy.spatial.Delaunay) of all nodes; triangles whose
+   centroid lies outside the region are removed;
+4. boundary recovery: a boundary segment missing from the triangulation has the interior nodes
+   that encroach on it (inside its diametral circle) removed, or else is split at its midpoint,
+   and the nodes are triangulated again (segment splitting as in conforming Delaunay
+   triangulation; J. R. Shewchuk, "Delaunay refinement algorithms for triangular mesh
+   generation", Computational Geometry 22 (2002), section 2);
+5. smoothing by the truss-force iteration of P.-O. Persson and G. Strang, "A simple mesh
+   generator in MATLAB", SIAM Review 46 (2004) 329-345, with boundary nodes fixed; instead of a
+   full re-triangulation the connectivity is made Delaunay again by Lawson edge flips whenever
+   nodes have moved far (boundary edges are never flipped, so the mesh stays conforming);
+6. a short optimisation-based clean-up of the interior corners of triangles still below 20
+   degrees (moves accepted only when the worst angle around the node improves).
+   Steps 5 and 6 are :func:`.smoothing.smooth_interior`.
+
+Where the geometry itself forbids 20 degrees (an input corner sharper than that, an input
+segment or web far below ``min_size_mm``) the mesh is still valid and conforming; the corner
+angles are available from :meth:`.mesh.Mesh.corner_angles_deg`.
+
+All lengths in mm. Vectorised numpy: loops are over rings, levels or iterations only.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+import shapely
+from scipy.spatial import Delaunay, cKDTree
+
+from platewright.fea.mesh.sizing import SizeField, boundary_size_field, graded_lattice
+from platewright.fea.mesh.smoothing import smooth_interior
+from platewright.fea.mesh.triangles import Mesh, triangle_areas_mm2
+
+__all__ = ["TaggedRing", "mesh_rings", "mesh_polygon", "default_size_mm"]
+
+#: Interior lattice nodes closer to the boundary than this many local sizes are dropped.
+_BOUNDARY_GAP = 0.55
+_RECOVERY_ROUNDS = 30
+#: Default element size as a fraction of the bounding-box diagonal, and default smallest size
+#: as a fraction of the element size.
+_DEFAULT_DIAGONAL_FRACTION = 1.0 / 40.0
+_DEFAULT_MIN_FRACTION = 1.0 / 50.0
+
+
+@dataclass(frozen=True)
+class TaggedRing:
+    """One closed boundary ring of the region to mesh.
+
+    ``points_mm``: (n, 2) float, open ring (first point not repeated), points on the true curve;
+    either orientation (the mesher orients outlines counter-clockwise and holes clockwise).
+    ``tag``: feature id given to every boundary edge on this ring. ``is_hole``: True for a hole.
+    """
+
+    points_mm: np.ndarray
+    tag: str
+    is_hole: bool
+
+
+def default_size_mm(rings: Sequence[TaggedRing]) -> float:
+    """Default element size: the bounding-box diagonal of all rings / 40, mm."""
+    pts = np.vstack([np.asarray(r.points_mm, dtype=float).reshape(-1, 2) for r in rings])
+    span = pts.max(axis=0) - pts.min(axis=0)
+    return float(np.hypot(*span) * _DEFAULT_DIAGONAL_FRACTION)
+
+
+def _signed_area(p: np.ndarray) -> float:
+    q = np.roll(p, -1, axis=0)
+    return 0.5 * float(np.sum(p[:, 0] * q[:, 1] - q[:, 0] * p[:, 1]))
+
+
+def _clean_ring(ring: TaggedRing, index: int) -> np.ndarray:
+    p = np.asarray(ring.points_mm, dtype=float).reshape(-1, 2)
+    if not np.all(np.isfinite(p)):
+        raise ValueError(f"ring {index} ({ring.tag!r}) has non-finite points")
+    scale = max(1.0, float(np.abs(p).max()))
+    step = np.hypot(*(np.roll(p, -1, axis=0) - p).T)
+    p = p[step > 1e-12 * scale]
+    if len(p) < 3:
+        raise ValueError(f"ring {index} ({ring.tag!r}) needs at least 3 distinct points")
+    want_ccw = not ring.is_hole
+    if (_signed_area(p) > 0.0) != want_ccw:
+        p = p[::-1]
+    return p
+
+
+@dataclass(frozen=True)
+class _Region:
+    """Oriented rings, their segments and the region polygon (prepared for point tests)."""
+
+    rings: list[np.ndarray]
+    ring_tag: np.ndarray
+    tag_names: tuple[str, ...]
+    polygon: shapely.Polygon
+    seg_a: np.ndarray
+    seg_b: np.ndarray
+    seg_tag: np.ndarray
+
+
+def _region(rings: Sequence[TaggedRing]) -> _Region:
+    if not rings:
+        raise ValueError("no rings to mesh")
+    cleaned = [_clean_ring(r, i) for i, r in enumerate(rings)]
+    outer = [i for i, r in enumerate(rings) if not r.is_hole]
+    if len(outer) != 1:
+        raise ValueError(f"need exactly one outline ring (is_hole=False), got {len(outer)}")
+    names: list[str] = []
+    for r in rings:
+        if r.tag not in names:
+            names.append(r.tag)
+    ring_tag = np.array([names.index(r.tag) for r in rings], dtype=np.int64)
+    holes = [cleaned[i] for i, r in enumerate(rings) if r.is_hole]
+    poly = shapely.Polygon(cleaned[outer[0]], holes)
+    if not poly.is_valid:
+        raise ValueError(
+            "rings do not bound a valid region (holes must lie inside the outline and must not "
+            f"touch or overlap each other; merge them first): {shapely.is_valid_reason(poly)}"
+        )
+    shapely.prepare(poly)
+    seg_a = np.vstack(cleaned)
+    seg_b = np.vstack([np.roll(p, -1, axis=0) for p in cleaned])
+    seg_tag = np.repeat(ring_tag, [len(p) for p in cleaned])
+    return _Region(cleaned, ring_tag, tuple(names), poly, seg_a, seg_b, seg_tag)
+
+
+def _discretize_boundary(
+    reg: _Region, field: SizeField
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Boundary nodes (b, 2) and segments (k, 2) int (domain on the left) with tags (k,) int.
+
+    Each input segment is cut into ``round(integral ds / h)`` pieces (at least 1) with ends
+    equidistributed in ``integral ds / h``; new points lie on the segment.
+    """
+    a, b = reg.seg_a, reg.seg_b
+    d = b - a
+    length = np.hypot(d[:, 0], d[:, 1])
+    mid = 0.5 * (a + b)
+    hmin = np.minimum(np.minimum(field(a), field(b)), field(mid))
+    nf = np.clip(np.ceil(4.0 * length / hmin), 1, 100000).astype(np.int64)
+    # Samples t = 0, 1/nf, ..., 1 on every segment (its own end included).
+    seg = np.repeat(np.arange(len(a)), nf + 1)
+    first = np.cumsum(nf + 1) - (nf + 1)
+    t = (np.arange(len(seg)) - np.repeat(first, nf + 1)) / nf[seg]
+    inv_h = 1.0 / field(a[seg] + t[:, None] * d[seg])
+    piece = 0.5 * (inv_h[:-1] + inv_h[1:]) * np.diff(t) * length[seg[:-1]]
+    piece[(first + nf)[:-1]] = 0.0  # no contribution from one segment's end to the next start
+    g = np.concatenate([[0.0], np.cumsum(piece)])
+    u = seg + t
+    g_start = g[first]
+    total = g[first + nf] - g_start
+    n = np.maximum(1, np.rint(total).astype(np.int64))
+    # Points of segment i: its start vertex, then k = 1 .. n_i - 1 equidistributed points.
+    owner = np.repeat(np.arange(len(a)), n)
+    kfirst = np.cumsum(n) - n
+    k = np.arange(len(owner)) - np.repeat(kfirst, n)
+    target = g_start[owner] + total[owner] * k / n[owner]
+    uu = np.interp(target, g, u)
+    tt = np.where(k == 0, 0.0, np.clip(uu - owner, 0.0, 1.0))
+    nodes = a[owner] + tt[:, None] * d[owner]
+    # Consecutive nodes within each ring form the boundary segments.
+    counts = np.bincount(np.repeat(np.arange(len(reg.rings)), [len(p) for p in reg.rings]),
+                         weights=n, minlength=len(reg.rings)).astype(np.int64)
+    start = np.cumsum(counts) - counts
+    idx = np.arange(len(nodes))
+    ring_of = np.repeat(np.arange(len(reg.rings)), counts)
+    nxt = idx + 1
+    last = start + counts - 1
+    nxt[last] = start
+    segs = np.column_stack([idx, nxt])
+    return nodes, segs, reg.ring_tag[ring_of]
+
+
+def _dense_boundary(nodes: np.ndarray, segs: np.ndarray, per_edge: int = 4) -> np.ndarray:
+    """Points along the boundary segments: (k * per_edge, 2) float, mm."""
+    a = nodes[segs[:, 0]]
+    d = nodes[segs[:, 1]] - a
+    t = (np.arange(per_edge) + 0.5) / per_edge
+    return (a[:, None, :] + t[None, :, None] * d[:, None, :]).reshape(-1, 2)
+
+
+def _isin_int(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Boolean mask: which entries of int array ``a`` occur in int array ``b``."""
+    s = np.sort(b)
+    if len(s) == 0:
+        return np.zeros(len(a), dtype=bool)
+    pos = np.minimum(np.searchsorted(s, a), len(s) - 1)
+    return s[pos] == a
+
+
+def _edge_keys(tri: np.ndarray, n: int) -> np.ndarray:
+    e = np.vstack([tri[:, [0, 1]], tri[:, [1, 2]], tri[:, [2, 0]]])
+    e.sort(axis=1)
+    return e[:, 0] * n + e[:, 1]
+
+
+def _delaunay(nodes: np.ndarray) -> np.ndarray:
+    tri = Delaunay(nodes, qhull_options="Qbb Qc Qz Q12")
+    if len(tri.coplanar):
+        raise RuntimeError(
+            f"{len(tri.coplanar)} nodes coincide within round-off; the input has near-duplicate "
+            "points"
+        )
+    return tri.simplices.astype(np.int64)
+
+
+def _inside_triangles(nodes: np.ndarray, tri: np.ndarray, poly: shapely.Polygon) -> np.ndarray:
+    c = nodes[tri].mean(axis=1)
+    t = tri[shapely.contains_xy(poly, c[:, 0], c[:, 1])]
+    neg = triangle_areas_mm2(nodes, t) < 0.0
+    t[neg] = t[neg][:, [0, 2, 1]]
+    return t
+
+
+def _missing_segments(tri_all: np.ndarray, segs: np.ndarray, n: int) -> np.ndarray:
+    s = np.sort(segs, axis=1)
+    return ~_isin_int(s[:, 0] * n + s[:, 1], _edge_keys(tri_all, n))
+
+
+class _Work:
+    """Mutable working state: boundary nodes (fixed), interior nodes and boundary segments."""
+
+    def __init__(self, bnodes: np.ndarray, segs: np.ndarray, tags: np.ndarray,
+                 inner: np.ndarray) -> None:
+        self.bnodes = bnodes
+        self.segs = segs
+        self.tags = tags
+        self.inner = inner
+
+    @property
+    def nodes(self) -> np.ndarray:
+        return np.vstack([self.bnodes, self.inner])
+
+    def recover(self) -> np.ndarray:
+        """Make every boundary segment a Delaunay edge; returns all Delaunay triangles."""
+        for _ in range(_RECOVERY_ROUNDS):
+            nodes = self.nodes
+            tri_all = _delaunay(nodes)
+            missing = _missing_segments(tri_all, self.segs, len(nodes))
+            if not missing.any():
+                return tri_all
+            ms = self.segs[missing]
+            a, b = nodes[ms[:, 0]], nodes[ms[:, 1]]
+            centre = 0.5 * (a + b)
+            radius = 0.5 * np.hypot(*(b - a).T)
+            drop = np.zeros(len(self.inner), dtype=bool)
+            split = np.ones(len(ms), dtype=bool)
+            if len(self.inner):
+                tree = cKDTree(self.inner)
+                hits = tree.query_ball_point(centre, radius * (1.0 + 1e-9))
+                for s, h in enumerate(hits):
+                    if h:
+                        drop[h] = True
+                        split[s] = False
+            self.inner = self.inner[~drop]
+            if split.any():
+                self._split(np.flatnonzero(missing)[split])
+        raise RuntimeError(
+            f"boundary recovery did not converge after {_RECOVERY_ROUNDS} rounds; "
+            "the input may have near-coincident rings or very sharp corners"
+        )
+
+    def _split(self, which: np.ndarray) -> None:
+        nb = len(self.bnodes)
+        s = self.segs[which]
+        mid = 0.5 * (self.bnodes[s[:, 0]] + self.bnodes[s[:, 1]])
+        new = nb + np.arange(len(which))
+        self.bnodes = np.vstack([self.bnodes, mid])
+        second = np.column_stack([new, s[:, 1]])
+        self.segs = self.segs.copy()
+        self.segs[which, 1] = new
+        self.segs = np.vstack([self.segs, second])
+        self.tags = np.concatenate([self.tags, self.tags[which]])
+
+
+def _recover_and_smooth(work: _Work, reg: _Region, field: SizeField) -> np.ndarray:
+    """Boundary recovery, then smoothing of the interior nodes; returns the inside triangles.
+
+    Recovery may split boundary segments and drop interior nodes; the smoothed interior nodes
+    are written back to ``work.inner``.
+    """
+    tri_all = work.recover()
+    tri = _inside_triangles(work.nodes, tri_all, reg.polygon)
+    nb = len(work.bnodes)
+    if len(work.inner) == 0:
+        return tri
+    p, tri = smooth_interior(work.nodes, tri, nb, _dense_boundary(work.bnodes, work.segs),
+                             reg.polygon, field)
+    work.inner = p[nb:]
+    return tri
+
+
+def _interior_nodes(
+    reg: _Region, field: SizeField, bnodes: np.ndarray, segs: np.ndarray
+) -> np.ndarray:
+    """Lattice nodes inside the region, kept clear of the boundary: (p, 2) float, mm."""
+    bbox = tuple(float(v) for v in reg.polygon.bounds)
+    pts = graded_lattice(
+        bbox,
+        lambda xy: field(xy, cap_mm=2.0 * field.max_size_mm),
+        field.max_size_mm,
+        field.min_size_mm,
+        field.grading,
+    )
+    inside = shapely.contains_xy(reg.polygon, pts[:, 0], pts[:, 1])
+    pts = pts[inside]
+    if len(pts) == 0:
+        return pts
+    h = field(pts)
+    seg_len = np.hypot(*(bnodes[segs[:, 1]] - bnodes[segs[:, 0]]).T)
+    per_edge = 4
+    tree = cKDTree(_dense_boundary(bnodes, segs, per_edge))
+    db, idx = tree.query(pts)
+    near_len = seg_len[idx // per_edge]
+    return pts[db >= _BOUNDARY_GAP * np.maximum(h, near_len)]
+
+
+def _estimate_nodes(reg: _Region, field: SizeField, boundary_nodes: int) -> float:
+    """Expected node count: boundary nodes + integral of 2 / (sqrt(3) h^2) over the region."""
+    x0, y0, x1, y1 = reg.polygon.bounds
+    cells = 200
+    dx = (x1 - x0) / cells
+    dy = (y1 - y0) / cells
+    gx, gy = np.meshgrid(x0 + dx * (np.arange(cells) + 0.5), y0 + dy * (np.arange(cells) + 0.5))
+    inside = shapely.contains_xy(reg.polygon, gx.ravel(), gy.ravel())
+    h = field(np.column_stack([gx.ravel()[inside], gy.ravel()[inside]]))
+    return float(boundary_nodes + np.sum(2.0 / (math.sqrt(3.0) * h * h)) * dx * dy)
+
+
+def _free_edges(tri: np.ndarray, n: int) -> np.ndarray:
+    """Directed triangle edges whose reverse is not a triangle edge: (k, 2) int."""
+    e = np.vstack([tri[:, [0, 1]], tri[:, [1, 2]], tri[:, [2, 0]]])
+    fwd = e[:, 0] * n + e[:, 1]
+    rev = e[:, 1] * n + e[:, 0]
+    return e[~_isin_int(fwd, rev)]
+
+
+def _finish(work: _Work, tri: np.ndarray, tag_names: tuple[str, ...]) -> Mesh:
+    nodes = work.nodes
+    used = np.zeros(len(nodes), dtype=bool)
+    used[tri.ravel()] = True
+    if not used[: len(work.bnodes)].all():
+        raise RuntimeError("a boundary node is in no triangle; the mesh does not conform")
+    new_index = np.cumsum(used) - 1
+    nodes = nodes[used]
+    tri = new_index[tri]
+    segs = new_index[work.segs]
+    n = len(nodes)
+    free = _free_edges(tri, n)
+    free_keys = np.sort(free[:, 0] * n + free[:, 1])
+    seg_keys = np.sort(segs[:, 0] * n + segs[:, 1])
+    if len(free_keys) != len(seg_keys) or not np.array_equal(free_keys, seg_keys):
+        raise RuntimeError(
+            "mesh boundary does not match the input rings "
+            f"({len(free_keys)} free edges, {len(seg_keys)} boundary segments)"
+        )
+    if np.any(triangle_areas_mm2(nodes, tri) <= 0.0):
+        raise RuntimeError("mesh has a triangle of zero area")
+    tags = work.tags.astype(np.int64)
+    for arr in (nodes, tri, segs, tags):
+        arr.setflags(write=False)
+    return Mesh(nodes, tri, segs, tags, tag_names)
+
+
+def mesh_rings(
+    rings: Sequence[TaggedRing],
+    size_mm: float | None = None,
+    *,
+    min_size_mm: float | None = None,
+    grading: float = 0.3,
+    max_nodes: int | None = None,
+) -> Mesh:
+    """Triangle mesh of the region bounded by ``rings`` (one outline, any number of holes).
+
+    ``size_mm``: largest element edge length, mm (default: bounding-box diagonal / 40).
+    ``min_size_mm``: smallest size the feature-size refinement may ask for, mm (default
+    ``size_mm / 50``; input segments shorter than it still set the size next to them).
+    ``grading``: how fast sizes may grow away from small features, mm per
+    mm. ``max_nodes``: refuse (ValueError, with the estimate) when more nodes are expected.
+
+    Every input segment is kept as one or more boundary edges tagged with its ring's tag; the
+    domain lies to the left of each boundary edge. Raises ValueError for rings that do not
+    bound a valid region (holes outside the outline, touching or overlapping rings).
+    """
+    reg = _region(rings)
+    h0 = default_size_mm(rings) if size_mm is None else float(size_mm)
+    if not (h0 > 0.0 and math.isfinite(h0)):
+        raise ValueError(f"size_mm must be a positive number, got {size_mm!r}")
+    hmin = h0 * _DEFAULT_MIN_FRACTION if min_size_mm is None else float(min_size_mm)
+    if not (0.0 < hmin <= h0):
+        raise ValueError(f"min_size_mm must be in (0, size_mm], got {min_size_mm!r}")
+    if not grading > 0.0:
+        raise ValueError(f"grading must be positive, got {grading!r}")
+    field = boundary_size_field(reg.seg_a, reg.seg_b, h0, hmin, grading)
+    bnodes, segs, tags = _discretize_boundary(reg, field)
+    if max_nodes is not None:
+        estimate = _estimate_nodes(reg, field, len(bnodes))
+        if estimate > max_nodes:
+            raise ValueError(
+                f"mesh would have about {estimate:,.0f} nodes, more than max_nodes={max_nodes:,}; "
+                "use a larger size_mm or min_size_mm, or raise max_nodes"
+            )
+    inner = _interior_nodes(reg, field, bnodes, segs)
+    work = _Work(bnodes, segs, tags, inner)
+    tri = _recover_and_smooth(work, reg, field)
+    return _finish(work, tri, reg.tag_names)
+
+
+def mesh_polygon(
+    polygon: shapely.Polygon,
+    size_mm: float | None = None,
+    tags: Sequence[str] | None = None,
+    **kw: object,
+) -> Mesh:
+    """Mesh a shapely Polygon (mm): exterior tagged ``"outline"``, interiors ``"hole0"``, ...
+
+    ``tags`` (optional) names the exterior then each interior in order. Other keyword arguments
+    go to :func:`mesh_rings`.
+    """
+    if not isinstance(polygon, shapely.Polygon) or polygon.is_empty:
+        raise ValueError("mesh_polygon needs a non-empty shapely Polygon")
+    rings_xy = [np.asarray(polygon.exterior.coords)[:-1]]
+    rings_xy += [np.asarray(r.coords)[:-1] for r in polygon.interiors]
+    names = ["outline"] + [f"hole{i}" for i in range(len(rings_xy) - 1)]
+    if tags is not None:
+        names = list(tags)
+        if len(names) != len(rings_xy):
+            raise ValueError(f"tags has {len(names)} names for {len(rings_xy)} rings")
+    rings = [TaggedRing(p, t, i > 0) for i, (p, t) in enumerate(zip(rings_xy, names))]
+    return mesh_rings(rings, size_mm, **kw)  # type: ignore[arg-type]
