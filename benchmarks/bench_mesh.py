@@ -17,7 +17,8 @@ import time
 
 import numpy as np
 
-from platewright.fea.mesh.mesher import TaggedRing, mesh_rings
+from platewright.fea.mesh.boundary import TaggedRing
+from platewright.fea.mesh.mesher import mesh_rings
 from platewright.fea.mesh.plate_input import sample_contour
 from platewright.geometry.plate.curves import circle
 

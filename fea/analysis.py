@@ -116,7 +116,7 @@ def _is_wood(m: Material) -> bool:
     return any(w in text for w in _WOOD_WORDS)
 
 
-def _matrices(plate: Plate, case: LoadCase) -> tuple[np.ndarray, bool]:
+def element_matrices(plate: Plate, case: LoadCase) -> tuple[np.ndarray, bool]:
     """Constitutive matrix (3, 3): D_b (N mm) in bending, plane-stress D (MPa) in plane; and
     whether isotropic values were used."""
     m = plate.material
@@ -268,7 +268,7 @@ def _run_case(plate: Plate, case: LoadCase, meshes: _PlateMeshes, size_mm: float
     t0 = time.perf_counter()
     mapped = map_case(case, plate, mesh, quad, components=components, vehicle_mass_g=vmass,
                       line_of=line_of)
-    dmat, iso = _matrices(plate, case)
+    dmat, iso = element_matrices(plate, case)
     timings["map"] = time.perf_counter() - t0
     sol, timings["assemble"], timings["solve"], fell_back = _solve_case(
         plate, case, mesh, quad, mapped, dmat, method, line_of)

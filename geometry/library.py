@@ -35,8 +35,8 @@ __all__ = [
     "get_motor",
 ]
 
-_TEMPLATES = "platewright.templates"
-_FIT_CLASSES = ("press", "transition", "slide", "clearance")
+TEMPLATES = "platewright.templates"
+FIT_CLASSES = ("press", "transition", "slide", "clearance")
 _STRENGTH_KINDS = ("yield", "tensile", "modulus_of_rupture")
 
 
@@ -83,19 +83,19 @@ class MotorPattern:
 
 
 def _read_yaml(*parts: str) -> Any:
-    node = files(_TEMPLATES)
+    node = files(TEMPLATES)
     for p in parts:
         node = node / p
     return yaml.safe_load(node.read_text(encoding="utf-8"))
 
 
-def _unknown_key(kind: str, key: str, valid: list[str]) -> KeyError:
+def unknown_key_problem(kind: str, key: str, valid: list[str]) -> KeyError:
     close = difflib.get_close_matches(key, valid, n=3, cutoff=0.5)
     hint = f"; did you mean {', '.join(repr(c) for c in close)}?" if close else ""
     return KeyError(f"unknown {kind} {key!r}{hint} (valid: {', '.join(sorted(valid))})")
 
 
-def _number(where: str, value: Any, *, positive: bool = False, allow_zero: bool = False) -> float:
+def read_number(where: str, value: Any, *, positive: bool = False, allow_zero: bool = False) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise ValueError(f"{where}: expected a number, got {value!r}")
     v = float(value)
@@ -107,12 +107,12 @@ def _number(where: str, value: Any, *, positive: bool = False, allow_zero: bool 
     return v
 
 
-def _pair(where: str, value: Any) -> tuple[float, float]:
+def read_pair(where: str, value: Any) -> tuple[float, float]:
     if not isinstance(value, (list, tuple)) or len(value) != 2:
         raise ValueError(f"{where}: expected two numbers [x, y] in mm, got {value!r}")
     return (
-        _number(f"{where}[0]", value[0], positive=True),
-        _number(f"{where}[1]", value[1], positive=True),
+        read_number(f"{where}[0]", value[0], positive=True),
+        read_number(f"{where}[1]", value[1], positive=True),
     )
 
 
@@ -136,34 +136,34 @@ def _material(key: str, d: Mapping[str, Any]) -> Material:
     kind = str(d["strength_kind"])
     if kind not in _STRENGTH_KINDS:
         raise ValueError(f"{where}.strength_kind: {kind!r} is not one of {_STRENGTH_KINDS}")
-    fits = {str(k): _number(f"{where}.fit_allowance_mm.{k}", v)
+    fits = {str(k): read_number(f"{where}.fit_allowance_mm.{k}", v)
             for k, v in d["fit_allowance_mm"].items()}
     ortho = d.get("orthotropic")
     min_web = d.get("min_web_mm")
     return Material(
         key=key,
         name=str(d["name"]),
-        youngs_modulus_mpa=_number(f"{where}.youngs_modulus_mpa", d["youngs_modulus_mpa"],
+        youngs_modulus_mpa=read_number(f"{where}.youngs_modulus_mpa", d["youngs_modulus_mpa"],
                                    positive=True),
-        poisson_ratio=_number(f"{where}.poisson_ratio", d["poisson_ratio"]),
-        density_kg_m3=_number(f"{where}.density_kg_m3", d["density_kg_m3"], positive=True),
-        strength_mpa=_number(f"{where}.strength_mpa", d["strength_mpa"], positive=True),
+        poisson_ratio=read_number(f"{where}.poisson_ratio", d["poisson_ratio"]),
+        density_kg_m3=read_number(f"{where}.density_kg_m3", d["density_kg_m3"], positive=True),
+        strength_mpa=read_number(f"{where}.strength_mpa", d["strength_mpa"], positive=True),
         strength_kind=kind,
-        typical_kerf_mm=_number(f"{where}.typical_kerf_mm", d["typical_kerf_mm"], positive=True),
+        typical_kerf_mm=read_number(f"{where}.typical_kerf_mm", d["typical_kerf_mm"], positive=True),
         fit_allowance_mm=fits,
-        min_web_mm=None if min_web is None else _number(f"{where}.min_web_mm", min_web,
+        min_web_mm=None if min_web is None else read_number(f"{where}.min_web_mm", min_web,
                                                         positive=True),
         laser_safe=True,
         warning=str(d.get("warning", "")),
         orthotropic=None if ortho is None else {
-            str(k): _number(f"{where}.orthotropic.{k}", v) for k, v in ortho.items()
+            str(k): read_number(f"{where}.orthotropic.{k}", v) for k, v in ortho.items()
         },
         sources=sources,
     )
 
 
 @lru_cache(maxsize=1)
-def _materials_cached() -> dict[str, Material]:
+def materials_cached() -> dict[str, Material]:
     raw = _read_yaml("materials.yaml")
     return {str(k): _material(str(k), v) for k, v in raw.items()}
 
@@ -174,14 +174,14 @@ def load_materials() -> dict[str, Material]:
     Refused materials carry NaN for their numeric fields and a ``refusal_reason``; callers must
     refuse them (see :func:`check_laser_safe`).
     """
-    return copy.deepcopy(_materials_cached())
+    return copy.deepcopy(materials_cached())
 
 
 def get_material(key: str) -> Material:
     """The library material ``key``; KeyError naming close matches and the valid keys."""
-    cached = _materials_cached()
+    cached = materials_cached()
     if key not in cached:
-        raise _unknown_key("material", key, list(cached))
+        raise unknown_key_problem("material", key, list(cached))
     return copy.deepcopy(cached[key])
 
 
@@ -221,7 +221,7 @@ def clearance_hole_mm(size: str, series: str = "medium") -> float:
         )
     norm = size.strip().upper() if isinstance(size, str) else size
     if norm not in sizes:
-        raise _unknown_key("screw size", str(size), list(sizes))
+        raise unknown_key_problem("screw size", str(size), list(sizes))
     return sizes[norm][series]
 
 
@@ -235,10 +235,10 @@ def _motor(key: str, d: Mapping[str, Any]) -> MotorPattern:
     screws: list[str] = []
     for i, h in enumerate(d["holes"]):
         hw = f"{where}.holes[{i}]"
-        x = _number(f"{hw}.x_mm", h["x_mm"])
-        y = _number(f"{hw}.y_mm", h["y_mm"])
+        x = read_number(f"{hw}.x_mm", h["x_mm"])
+        y = read_number(f"{hw}.y_mm", h["y_mm"])
         if "diameter_mm" in h:
-            dia = _number(f"{hw}.diameter_mm", h["diameter_mm"], positive=True)
+            dia = read_number(f"{hw}.diameter_mm", h["diameter_mm"], positive=True)
             screws.append("")
         else:
             dia = clearance_hole_mm(str(h["screw"]), "medium")
@@ -248,22 +248,22 @@ def _motor(key: str, d: Mapping[str, Any]) -> MotorPattern:
     if d.get("strap") is not None:
         s = d["strap"]
         strap = StrapPattern(
-            slot_width_mm=_number(f"{where}.strap.slot_width_mm", s["slot_width_mm"],
+            slot_width_mm=read_number(f"{where}.strap.slot_width_mm", s["slot_width_mm"],
                                   positive=True),
-            slot_length_mm=_number(f"{where}.strap.slot_length_mm", s["slot_length_mm"],
+            slot_length_mm=read_number(f"{where}.strap.slot_length_mm", s["slot_length_mm"],
                                    positive=True),
-            spacing_mm=_number(f"{where}.strap.spacing_mm", s["spacing_mm"], positive=True),
+            spacing_mm=read_number(f"{where}.strap.spacing_mm", s["spacing_mm"], positive=True),
         )
     pilot = d.get("pilot_diameter_mm")
     return MotorPattern(
         key=key,
         name=str(d["name"]),
         kind=str(d["kind"]),
-        body_mm=_pair(f"{where}.body_mm", d["body_mm"]),
+        body_mm=read_pair(f"{where}.body_mm", d["body_mm"]),
         holes=tuple(holes),
-        pilot_diameter_mm=None if pilot is None else _number(f"{where}.pilot_diameter_mm",
+        pilot_diameter_mm=None if pilot is None else read_number(f"{where}.pilot_diameter_mm",
                                                              pilot, positive=True),
-        shaft_mm=_number(f"{where}.shaft_mm", d["shaft_mm"], positive=True),
+        shaft_mm=read_number(f"{where}.shaft_mm", d["shaft_mm"], positive=True),
         strap=strap,
         caution=str(d.get("caution", "")),
         sources={str(k): str(v) for k, v in (d.get("sources") or {}).items()},
@@ -287,5 +287,5 @@ def get_motor(key: str) -> MotorPattern:
     """The library motor pattern ``key``; KeyError naming close matches and the valid keys."""
     cached = _motors_cached()
     if key not in cached:
-        raise _unknown_key("motor", key, list(cached))
+        raise unknown_key_problem("motor", key, list(cached))
     return copy.deepcopy(cached[key])

@@ -18,7 +18,8 @@ from hypothesis import strategies as st
 from scipy.spatial import Delaunay
 from shapely.geometry import Point, box
 
-from platewright.fea.mesh.mesher import TaggedRing, mesh_polygon, mesh_rings
+from platewright.fea.mesh.boundary import TaggedRing
+from platewright.fea.mesh.mesher import mesh_polygon, mesh_rings
 from platewright.fea.mesh.plate_input import plate_rings, sample_contour
 from platewright.fea.mesh.sizing import bayer_matrix
 from platewright.fea.mesh.triangles import Mesh, flip_to_delaunay, triangle_angles_deg

@@ -26,7 +26,7 @@ from typing import Any
 
 from platewright.cli.commands.base import Command, DesignCommand
 from platewright.cli.outputs import check_output_target, staged_output
-from platewright.cli.reports.report_html import _CSS
+from platewright.cli.reports.report_html import REPORT_CSS
 from platewright.cli.reports.report_json import SCHEMA_VERSION, tool_version
 from platewright.cli.reports.safety import SAFETY_NOTES
 from platewright.cli.terminal import format_table
@@ -177,7 +177,7 @@ def nest_html(report: dict[str, Any], svgs: list[str]) -> str:
         f"<td>{100 * s['utilisation']:.1f} %</td><td>{e(_time_cost(s)[0])}</td>"
         f"<td>{e(_time_cost(s)[1])}</td></tr>" for s in report["sheets"])
     st = report["settings"]
-    parts = [f"<!doctype html><html><head><meta charset=utf-8><title>nest</title><style>{_CSS}"
+    parts = [f"<!doctype html><html><head><meta charset=utf-8><title>nest</title><style>{REPORT_CSS}"
              "</style></head><body>",
              f"<h1>Nest: {len(report['sheets'])} sheet(s)</h1>",
              f"<p class=meta>{e(', '.join(d['name'] for d in report['designs']))}; spacing "

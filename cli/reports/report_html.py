@@ -15,7 +15,7 @@ from platewright.cli.reports.safety import ESTIMATE_NOTE, SAFETY_NOTES
 
 __all__ = ["render_report"]
 
-_CSS = """
+REPORT_CSS = """
 body{font-family:system-ui,sans-serif;margin:2rem auto;max-width:68rem;color:#1d232a;line-height:1.4}
 h1{font-size:1.6rem;margin-bottom:.2rem} h2{margin-top:2.2rem;border-bottom:2px solid #c9d3dc}
 table{border-collapse:collapse;margin:.6rem 0;font-size:.92rem}
@@ -185,7 +185,7 @@ def render_report(report: dict[str, Any], svgs: dict[str, str],
                        for p in report["plates"])
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8">
-<title>{_e(d['name'])} - platewright report</title><style>{_CSS}</style></head>
+<title>{_e(d['name'])} - platewright report</title><style>{REPORT_CSS}</style></head>
 <body>
 <h1>{_e(d['name'])}</h1>
 <p class="meta">Design file {_e(d['file'])} (sha256 {_e(d['sha256'][:16])}…),

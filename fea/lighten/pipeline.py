@@ -56,11 +56,11 @@ from platewright.fea.lighten.results import Candidate, LighteningResult
 from platewright.fea.lighten.search import (
     RULES_FOR_NEW_HOLES,
     Progress,
-    _hole_sets,
-    _Job,
-    _refine,
-    _utilisation,
-    _worst,
+    SearchJob,
+    failing_cases,
+    hole_sets,
+    limit_utilisation,
+    refine_hole_sets,
     with_holes,
 )
 from platewright.fea.lighten.simp import TopOptSettings, optimise
@@ -102,7 +102,7 @@ def _volume_fraction(slack: float) -> float:
     return float(np.clip(slack ** (-1.0 / 3.0) - 0.1, 0.35, 0.85))
 
 
-def _densities(job: _Job, region: DesignRegion, slack: float,
+def _densities(job: SearchJob, region: DesignRegion, slack: float,
                settings: LighteningSettings) -> tuple[np.ndarray, np.ndarray, np.ndarray, int, float]:
     """(nodes (n, 2), triangles (m, 3), densities (m,), optimiser iterations, volume fraction)."""
     s = region.settings
@@ -160,7 +160,7 @@ def lighten_plate(
     if not mine:
         raise ValueError(f"no load case acts on plate '{plate.name}'")
     vmass = vehicle_mass_g if vehicle_mass_g is not None else total_vehicle_mass_g([plate], components)
-    job = _Job(plate, mine, tuple(components), vmass, size_mm, method, progress)
+    job = SearchJob(plate, mine, tuple(components), vmass, size_mm, method, progress)
     timings: dict[str, float] = {}
     t0 = time.perf_counter()
     if before is None:
@@ -191,7 +191,7 @@ def lighten_plate(
         density_field = (nodes, tris, dens)
         timings["optimise"] = time.perf_counter() - t0
 
-        u0 = _utilisation(before)
+        u0 = limit_utilisation(before)
         mirrors = mirror_lines(region, nodes, tris, dens)
         if mirrors:
             dens = symmetrised(dens, nodes, tris, mirrors)
@@ -199,7 +199,7 @@ def lighten_plate(
                          "so the holes come out symmetric")
         to_threshold = level_thresholds(nodes, tris, dens, region)
         t0 = time.perf_counter()
-        sets = _hole_sets(style, nodes, tris, dens, region, to_threshold, mirrors=mirrors)
+        sets = hole_sets(style, nodes, tris, dens, region, to_threshold, mirrors=mirrors)
         timings["holes"] = time.perf_counter() - t0
 
         def make(holes: Any) -> tuple[Feature, ...]:
@@ -216,7 +216,7 @@ def lighten_plate(
         t0 = time.perf_counter()
         while len(candidates) < settings.max_candidates:
             if hi - lo <= 1:  # neighbours in the list: look for a set between them
-                if not _refine(sets, lo, hi, style, nodes, tris, dens, region, to_threshold,
+                if not refine_hole_sets(sets, lo, hi, style, nodes, tris, dens, region, to_threshold,
                                mirrors):
                     break
                 hi += 1
@@ -238,9 +238,9 @@ def lighten_plate(
                 hi, u_hi, a_hi = i, 10.0, area
                 continue
             mass = mass_properties(holed).mass_g
-            u = _utilisation(analysis)
+            u = limit_utilisation(analysis)
             candidates.append(Candidate(level, len(kept), mass, analysis.passes,
-                                        _worst(analysis), time.perf_counter() - tc))
+                                        failing_cases(analysis), time.perf_counter() - tc))
             if analysis.passes:
                 lo, u_lo, a_lo = i, u, area
                 if best is None or mass < best[0] - 1e-9:

@@ -30,7 +30,7 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from platewright.fea.analysis import _matrices, total_vehicle_mass_g
+from platewright.fea.analysis import element_matrices, total_vehicle_mass_g
 from platewright.fea.assembly import element_dofs
 from platewright.fea.elements import bending as dkt
 from platewright.fea.elements import membrane
@@ -177,7 +177,7 @@ class PlateDensityModel:
         mapped = map_case(case, self.plate, mesh, quad, components=comps, vehicle_mass_g=vmass)
         if np.any(mapped.fixed_values != 0.0):
             raise ValueError("prescribed non-zero displacements are not supported")
-        dmat, _ = _matrices(self.plate, case)
+        dmat, _ = element_matrices(self.plate, case)
         if case.family == "bending":
             dpn = 3
             ke0 = dkt.dkt_stiffness(mesh.nodes, tri, dmat)

@@ -3,7 +3,7 @@
 Used by :func:`.lighten.lighten_plate` (the pipeline and the search loop; its module text gives
 the method). Here: the distinct hole sets at the search levels (shares of the design region,
 0..1) ordered by hole area, sets made on demand between two neighbours (halving the level, or
-shrinking the holes of the failing set evenly), the rules that drop a new hole, and ``_Job``
+shrinking the holes of the failing set evenly), the rules that drop a new hole, and ``SearchJob``
 that turns a hole set into a plate WITH the holes and re-analyses it (fea.analysis).
 
 Lengths mm, areas mm^2, masses g; utilisation and levels are dimensionless.
@@ -57,7 +57,7 @@ def _renumber(holes: Sequence[Feature]) -> tuple[Feature, ...]:
     return tuple(replace(h, id=f"lighten{i + 1}") for i, h in enumerate(holes))
 
 
-def _utilisation(analysis: PlateAnalysis) -> float:
+def limit_utilisation(analysis: PlateAnalysis) -> float:
     """Worst use of any limit over every case: value / limit (limit / value for a safety
     factor); at most 1 when every limit is met (dimensionless)."""
     worst = 0.0
@@ -73,7 +73,7 @@ def _utilisation(analysis: PlateAnalysis) -> float:
 
 
 @dataclass
-class _Job:
+class SearchJob:
     plate: Plate
     cases: tuple[LoadCase, ...]
     components: tuple[Component, ...]
@@ -111,7 +111,7 @@ class _Job:
         return kept, candidate, analysis
 
 
-def _hole_sets(style: str, nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray,
+def hole_sets(style: str, nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray,
                region: DesignRegion, to_threshold: Callable[[float], float],
                levels: Sequence[float] | None = None,
                mirrors: Sequence[tuple[float, float, float, float]] = ()
@@ -139,7 +139,7 @@ def _hole_sets(style: str, nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray
     return sorted(out.values(), key=lambda t: (t[1], t[0]))
 
 
-def _refine(sets: list[tuple[float, float, Any]], lo: int, hi: int, style: str,
+def refine_hole_sets(sets: list[tuple[float, float, Any]], lo: int, hi: int, style: str,
             nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray, region: DesignRegion,
             to_threshold: Callable[[float], float],
             mirrors: Sequence[tuple[float, float, float, float]] = ()) -> bool:
@@ -154,7 +154,7 @@ def _refine(sets: list[tuple[float, float, Any]], lo: int, hi: int, style: str,
         mid = 0.5 * (l0 + l1)
         if l1 - l0 < 1.0 / 256.0:
             return False
-        found = _hole_sets(style, nodes, tris, dens, region, to_threshold, (mid,), mirrors)
+        found = hole_sets(style, nodes, tris, dens, region, to_threshold, (mid,), mirrors)
         if found and a0 + 1e-6 < found[0][1] < a1 - 1e-6:
             sets.insert(hi, found[0])
             return True
@@ -205,5 +205,5 @@ def _shrunk(polys: list[shapely.Polygon], region: DesignRegion, want_mm2: float
     return best
 
 
-def _worst(analysis: PlateAnalysis) -> str:
+def failing_cases(analysis: PlateAnalysis) -> str:
     return ",".join(c.name for c in analysis.cases if not c.passes)

@@ -12,7 +12,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 import shapely
 
-from platewright.fea.loadcases.reader import _Reader
+from platewright.fea.loadcases.reader import Reader
 from platewright.fea.loadcases.types import Box, Component, LoadCase, feature_names, resolve_feature
 from platewright.geometry.model import Feature, Plate
 
@@ -34,7 +34,7 @@ def _spans(features: Sequence[Feature]) -> tuple[np.ndarray, str]:
 class _Checker:
     """Cross-checks a parsed case against its plate's geometry."""
 
-    def __init__(self, rd: _Reader, plate: Plate) -> None:
+    def __init__(self, rd: Reader, plate: Plate) -> None:
         self.rd, self.plate = rd, plate
         self.names = feature_names(plate)
         outline = plate.outline.contours[0].to_points(0.05)
@@ -85,7 +85,7 @@ class _Checker:
                          f"the outline {spans}")
 
 
-def _check_component(rd: _Reader, c: Component) -> bool:
+def check_component(rd: Reader, c: Component) -> bool:
     before = len(rd.problems)
     if (c.at_mm is None) == (c.feature is None):
         rd.fail(c.path, "a component needs exactly one of 'at_mm' and 'feature'")
@@ -102,7 +102,7 @@ def _check_component(rd: _Reader, c: Component) -> bool:
     return len(rd.problems) == before
 
 
-def _check_family(rd: _Reader, case: LoadCase, comps: Mapping[str, Component], clean: bool
+def _check_family(rd: Reader, case: LoadCase, comps: Mapping[str, Component], clean: bool
                   ) -> None:
     bending = case.family == "bending"
     for ld in case.loads:
@@ -141,7 +141,7 @@ def _check_family(rd: _Reader, case: LoadCase, comps: Mapping[str, Component], c
                 "add loads, self_weight: true or a collision")
 
 
-def _check_case(rd: _Reader, case: LoadCase, comps: Mapping[str, Component], clean: bool = True
+def check_case(rd: Reader, case: LoadCase, comps: Mapping[str, Component], clean: bool = True
                 ) -> bool:
     before = len(rd.problems)
     _check_family(rd, case, comps, clean)

@@ -19,20 +19,20 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-from platewright.fea.loadcases.checks import _check_case, _check_component
+from platewright.fea.loadcases.checks import check_case, check_component
 from platewright.fea.loadcases.fields import (
-    _CASE,
-    _COLLISION,
-    _COMPONENT,
-    _LIMITS,
-    _LOAD,
-    _LOAD_KEYS,
-    _SUPPORT,
-    _SUPPORT_KEYS,
-    _Spec,
+    CASE,
+    COLLISION,
+    COMPONENT,
+    LIMITS,
+    LOAD,
+    LOAD_KEYS,
+    SUPPORT,
+    SUPPORT_KEYS,
+    Spec,
     describe_load_cases,
 )
-from platewright.fea.loadcases.reader import _Reader
+from platewright.fea.loadcases.reader import Reader
 from platewright.fea.loadcases.types import (
     FAMILIES,
     STANDARD_GRAVITY_M_S2,
@@ -68,7 +68,7 @@ __all__ = [
 ]
 
 
-def _discriminated(rd: _Reader, raw: Any, path: str, key: str, table: Mapping[str, _Spec],
+def _discriminated(rd: Reader, raw: Any, path: str, key: str, table: Mapping[str, Spec],
                    keys_by: Mapping[str, Sequence[str]], title: str) -> tuple[dict, bool]:
     if not isinstance(raw, Mapping):
         rd.fail(path, f"expected a mapping ({title}), got {raw!r}")
@@ -82,8 +82,8 @@ def _discriminated(rd: _Reader, raw: Any, path: str, key: str, table: Mapping[st
     return rd.record(raw, table, path, f"a {title} with {key}: {kind}", keys_by[kind])
 
 
-def _read_support(rd: _Reader, raw: Any, path: str) -> Support | None:
-    d, ok = _discriminated(rd, raw, path, "at", _SUPPORT, _SUPPORT_KEYS, "support")
+def _read_support(rd: Reader, raw: Any, path: str) -> Support | None:
+    d, ok = _discriminated(rd, raw, path, "at", SUPPORT, SUPPORT_KEYS, "support")
     if not ok:
         return None
     at = d["at"]
@@ -115,15 +115,15 @@ def _read_support(rd: _Reader, raw: Any, path: str) -> Support | None:
                    tuple(d.get("points_mm") or ()), path)
 
 
-def _read_load(rd: _Reader, raw: Any, path: str) -> Load | None:
-    d, ok = _discriminated(rd, raw, path, "type", _LOAD, _LOAD_KEYS, "load")
+def _read_load(rd: Reader, raw: Any, path: str) -> Load | None:
+    d, ok = _discriminated(rd, raw, path, "type", LOAD, LOAD_KEYS, "load")
     if not ok:
         return None
     t = d["type"]
     need = {"component": "component", "moment": "moment_n_mm", "pressure": "pressure_mpa",
             "edge": "force_n", "force": "force_n"}[t]
     if d.get(need) is None:
-        rd.fail(path, f"a {t} load needs '{need}'", _LOAD[need].doc)
+        rd.fail(path, f"a {t} load needs '{need}'", LOAD[need].doc)
         return None
     if t == "force" and (d.get("feature") is None) == (d.get("at_mm") is None):
         rd.fail(path, "a force load needs exactly one of 'feature' and 'at_mm'")
@@ -137,7 +137,7 @@ def _read_load(rd: _Reader, raw: Any, path: str) -> Load | None:
                 d.get("region_mm"), float(d.get("pressure_mpa") or 0.0), path)
 
 
-def _unit(v: tuple[float, ...] | None, rd: _Reader, path: str) -> tuple[float, float] | None:
+def _unit(v: tuple[float, ...] | None, rd: Reader, path: str) -> tuple[float, float] | None:
     if v is None:
         return None
     n = math.hypot(v[0], v[1])
@@ -147,11 +147,11 @@ def _unit(v: tuple[float, ...] | None, rd: _Reader, path: str) -> tuple[float, f
     return (v[0] / n, v[1] / n)
 
 
-def _read_case(rd: _Reader, raw: Any, path: str) -> tuple[LoadCase | None, bool]:
+def _read_case(rd: Reader, raw: Any, path: str) -> tuple[LoadCase | None, bool]:
     """The case (None when its core fields are bad) and whether it was read without problems;
     a case with bad parts is still returned so its other fields can be checked."""
     before = len(rd.problems)
-    d, _ = rd.record(raw, _CASE, path, "load case")
+    d, _ = rd.record(raw, CASE, path, "load case")
     if not d:
         return None, False
     supports = [_read_support(rd, s, f"{path}.supports[{j}]")
@@ -161,14 +161,14 @@ def _read_case(rd: _Reader, raw: Any, path: str) -> tuple[LoadCase | None, bool]
     loads = [_read_load(rd, s, f"{path}.loads[{j}]") for j, s in enumerate(d.get("loads") or [])]
     coll = None
     if d.get("collision") is not None:
-        c, ok = rd.record(d["collision"], _COLLISION, f"{path}.collision", "collision")
+        c, ok = rd.record(d["collision"], COLLISION, f"{path}.collision", "collision")
         direction = _unit(c.get("direction"), rd, f"{path}.collision.direction") if ok else None
         if ok and direction is not None:
             coll = Collision(c["speed_m_s"], c["bumper_stiffness_n_per_mm"], c["feature"],
                              c["region_mm"], direction, c["vehicle_mass_g"], f"{path}.collision")
     lim = Limits()
     if d.get("limits") is not None:
-        m, ok = rd.record(d["limits"], _LIMITS, f"{path}.limits", "limits")
+        m, ok = rd.record(d["limits"], LIMITS, f"{path}.limits", "limits")
         lim = Limits(**m) if ok else lim
     g_dir = _unit(d.get("g_direction"), rd, f"{path}.g_direction")
     if any(d.get(k) is None for k in ("name", "plate", "family", "g_factor")) or (
@@ -191,18 +191,18 @@ def parse_loads(design: Any, plates: Sequence[Plate] | None = None) -> LoadInput
     feature names, points and regions are checked against their geometry. Returns a LoadInput.
     Raises DesignError listing every problem, each with its field path and file line.
     """
-    rd = _Reader(design, plates)
+    rd = Reader(design, plates)
     comps: dict[str, Component] = {}
     for i, raw in enumerate(getattr(design, "components", ()) or ()):
         path = f"components[{i}]"
-        d, ok = rd.record(raw, _COMPONENT, path, "a component")
+        d, ok = rd.record(raw, COMPONENT, path, "a component")
         if not ok:
             continue
         comp = Component(d["id"], d["plate"], d["mass_g"], d["at_mm"], d["feature"],
                          d["footprint_mm"], path)
         if comp.id in comps:
             rd.fail(f"{path}.id", f"duplicate component id '{comp.id}'", "ids must differ")
-        elif _check_component(rd, comp):
+        elif check_component(rd, comp):
             comps[comp.id] = comp
     cases: list[LoadCase] = []
     seen: set[str] = set()
@@ -215,7 +215,7 @@ def parse_loads(design: Any, plates: Sequence[Plate] | None = None) -> LoadInput
             continue
         if isinstance(name, str):
             seen.add(name)
-        if case is not None and _check_case(rd, case, comps, clean) and clean:
+        if case is not None and check_case(rd, case, comps, clean) and clean:
             cases.append(case)
     if rd.problems:
         raise DesignError(rd.problems, getattr(design, "source_path", ""))

@@ -1,6 +1,6 @@
 """Reading raw ``components:`` / ``load_cases:`` mappings against the field tables.
 
-:class:`_Reader` turns values into numbers (mm, g, N, MPa ... as the field name says; expressions
+:class:`Reader` turns values into numbers (mm, g, N, MPa ... as the field name says; expressions
 over the design's ``references`` allowed), vectors, names and region boxes, and collects every
 problem (field path, file line, hint) instead of stopping at the first.
 """
@@ -11,8 +11,8 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-from platewright.fea.loadcases.fields import _NUMBER_WITH_UNIT, _key_hint, _Spec, _unit_hint
-from platewright.fea.loadcases.types import _REGION_KEYS, Box
+from platewright.fea.loadcases.fields import NUMBER_WITH_UNIT, Spec, key_hint, unit_hint
+from platewright.fea.loadcases.types import REGION_KEYS, Box
 from platewright.geometry.design.expressions import ExpressionError, evaluate
 from platewright.geometry.errors import Problem
 from platewright.geometry.model import Plate
@@ -20,7 +20,7 @@ from platewright.geometry.model import Plate
 __all__: list[str] = []
 
 
-class _Reader:
+class Reader:
     """Reads raw mappings against the field tables, collecting problems."""
 
     def __init__(self, design: Any, plates: Sequence[Plate] | None) -> None:
@@ -33,13 +33,13 @@ class _Reader:
         fn = getattr(self.design, "line_of", None)
         self.problems.append(Problem(path, message, fn(path) if fn else None, hint))
 
-    def number(self, value: Any, path: str, spec: _Spec) -> float | None:
-        m = _NUMBER_WITH_UNIT.match(value) if isinstance(value, str) else None
+    def number(self, value: Any, path: str, spec: Spec) -> float | None:
+        m = NUMBER_WITH_UNIT.match(value) if isinstance(value, str) else None
         if m and m.group(2) not in self.refs:
             msg = (f"'{value}' is not a number: write the value in {spec.unit} without a unit "
                    "(the unit is in the field name)") if spec.unit else (
                 f"'{value}' is not a number: this field takes a plain number without a unit")
-            self.fail(path, msg, _unit_hint(float(m.group(1)), m.group(2), spec.unit))
+            self.fail(path, msg, unit_hint(float(m.group(1)), m.group(2), spec.unit))
             return None
         try:
             v = evaluate(value, self.refs).value
@@ -53,28 +53,28 @@ class _Reader:
             return None
         return v
 
-    def vector(self, value: Any, path: str, spec: _Spec) -> tuple[float, ...] | None:
+    def vector(self, value: Any, path: str, spec: Spec) -> tuple[float, ...] | None:
         if not isinstance(value, list) or len(value) not in spec.lengths:
             n = " or ".join(str(k) for k in spec.lengths)
             self.fail(path, f"expected a list of {n} numbers{' in ' + spec.unit if spec.unit else ''}"
                       f", got {value!r}")
             return None
-        item = _Spec("number", "", spec.unit, gt=spec.gt)
+        item = Spec("number", "", spec.unit, gt=spec.gt)
         out = [self.number(v, f"{path}[{i}]", item) for i, v in enumerate(value)]
         return None if any(o is None for o in out) else tuple(float(o) for o in out)
 
     def region(self, value: Any, path: str) -> Box | None:
         if not isinstance(value, Mapping) or not value:
-            self.fail(path, f"expected a mapping with some of {', '.join(_REGION_KEYS)} (mm), "
+            self.fail(path, f"expected a mapping with some of {', '.join(REGION_KEYS)} (mm), "
                       f"got {value!r}")
             return None
         vals: dict[str, float] = {}
         for key, raw in value.items():
-            if key not in _REGION_KEYS:
+            if key not in REGION_KEYS:
                 self.fail(f"{path}.{key}", f"unknown key '{key}'",
-                          "valid: " + ", ".join(_REGION_KEYS) + " (all in mm)")
+                          "valid: " + ", ".join(REGION_KEYS) + " (all in mm)")
                 continue
-            v = self.number(raw, f"{path}.{key}", _Spec("number", "", "mm"))
+            v = self.number(raw, f"{path}.{key}", Spec("number", "", "mm"))
             if v is not None:
                 vals[key] = v
         box = Box(vals.get("x_min", -math.inf), vals.get("x_max", math.inf),
@@ -84,7 +84,7 @@ class _Reader:
             return None
         return box
 
-    def value(self, value: Any, path: str, spec: _Spec) -> Any:
+    def value(self, value: Any, path: str, spec: Spec) -> Any:
         kind = spec.kind
         if kind == "number":
             return self.number(value, path, spec)
@@ -104,7 +104,7 @@ class _Reader:
             if items and all(isinstance(v, str) and v for v in items):
                 return tuple(items)
         if kind == "points" and isinstance(value, list) and value:
-            pts = [self.vector(v, f"{path}[{i}]", _Spec("vector", "", "mm"))
+            pts = [self.vector(v, f"{path}[{i}]", Spec("vector", "", "mm"))
                    for i, v in enumerate(value)]
             return None if any(p is None for p in pts) else tuple(pts)
         if (kind == "list" and isinstance(value, list)) or (
@@ -116,7 +116,7 @@ class _Reader:
         self.fail(path, f"expected {wanted}, got {value!r}")
         return None
 
-    def record(self, raw: Any, table: Mapping[str, _Spec], path: str, title: str,
+    def record(self, raw: Any, table: Mapping[str, Spec], path: str, title: str,
                keys: Sequence[str] | None = None) -> tuple[dict[str, Any], bool]:
         """Read one mapping: (values with defaults filled, True when no problem was found)."""
         if not isinstance(raw, Mapping):
@@ -131,7 +131,7 @@ class _Reader:
                 self.fail(f"{path}.{key}", f"'{key}' does not apply to {title}",
                           "fields here: " + ", ".join(keys))
             else:
-                self.fail(f"{path}.{key}", f"unknown key '{key}'", _key_hint(str(key), keys, table))
+                self.fail(f"{path}.{key}", f"unknown key '{key}'", key_hint(str(key), keys, table))
         out: dict[str, Any] = {}
         for key in keys:
             spec = table[key]

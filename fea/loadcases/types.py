@@ -35,7 +35,7 @@ STANDARD_GRAVITY_M_S2 = 9.80665
 FAMILIES = ("bending", "in_plane")
 
 #: Keys of a region box in a design file, in the order of Box's fields (all mm).
-_REGION_KEYS = ("x_min", "x_max", "y_min", "y_max")
+REGION_KEYS = ("x_min", "x_max", "y_min", "y_max")
 
 
 @dataclass(frozen=True)
@@ -56,7 +56,7 @@ class Box:
     def describe(self) -> str:
         """The box as written in the file, e.g. ``{x_min: 80}``."""
         vals = (self.x_min_mm, self.x_max_mm, self.y_min_mm, self.y_max_mm)
-        return "{" + ", ".join(f"{k}: {v:g}" for k, v in zip(_REGION_KEYS, vals, strict=True)
+        return "{" + ", ".join(f"{k}: {v:g}" for k, v in zip(REGION_KEYS, vals, strict=True)
                                if math.isfinite(v)) + "}"
 
 

@@ -33,160 +33,30 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
 
 import numpy as np
 import shapely
 from scipy.spatial import Delaunay, cKDTree
 
+from platewright.fea.mesh.boundary import (
+    Region,
+    TaggedRing,
+    default_size_mm,
+    dense_boundary,
+    discretize_boundary,
+    region_of,
+)
 from platewright.fea.mesh.sizing import SizeField, boundary_size_field, graded_lattice
 from platewright.fea.mesh.smoothing import smooth_interior
 from platewright.fea.mesh.triangles import Mesh, triangle_areas_mm2
 
-__all__ = ["TaggedRing", "mesh_rings", "mesh_polygon", "default_size_mm"]
+__all__ = ["mesh_polygon", "mesh_rings"]
 
 #: Interior lattice nodes closer to the boundary than this many local sizes are dropped.
 _BOUNDARY_GAP = 0.55
 _RECOVERY_ROUNDS = 30
-#: Default element size as a fraction of the bounding-box diagonal, and default smallest size
-#: as a fraction of the element size.
-_DEFAULT_DIAGONAL_FRACTION = 1.0 / 40.0
+#: Default smallest size as a fraction of the element size.
 _DEFAULT_MIN_FRACTION = 1.0 / 50.0
-
-
-@dataclass(frozen=True)
-class TaggedRing:
-    """One closed boundary ring of the region to mesh.
-
-    ``points_mm``: (n, 2) float, open ring (first point not repeated), points on the true curve;
-    either orientation (the mesher orients outlines counter-clockwise and holes clockwise).
-    ``tag``: feature id given to every boundary edge on this ring. ``is_hole``: True for a hole.
-    """
-
-    points_mm: np.ndarray
-    tag: str
-    is_hole: bool
-
-
-def default_size_mm(rings: Sequence[TaggedRing]) -> float:
-    """Default element size: the bounding-box diagonal of all rings / 40, mm."""
-    pts = np.vstack([np.asarray(r.points_mm, dtype=float).reshape(-1, 2) for r in rings])
-    span = pts.max(axis=0) - pts.min(axis=0)
-    return float(np.hypot(*span) * _DEFAULT_DIAGONAL_FRACTION)
-
-
-def _signed_area(p: np.ndarray) -> float:
-    q = np.roll(p, -1, axis=0)
-    return 0.5 * float(np.sum(p[:, 0] * q[:, 1] - q[:, 0] * p[:, 1]))
-
-
-def _clean_ring(ring: TaggedRing, index: int) -> np.ndarray:
-    p = np.asarray(ring.points_mm, dtype=float).reshape(-1, 2)
-    if not np.all(np.isfinite(p)):
-        raise ValueError(f"ring {index} ({ring.tag!r}) has non-finite points")
-    scale = max(1.0, float(np.abs(p).max()))
-    step = np.hypot(*(np.roll(p, -1, axis=0) - p).T)
-    p = p[step > 1e-12 * scale]
-    if len(p) < 3:
-        raise ValueError(f"ring {index} ({ring.tag!r}) needs at least 3 distinct points")
-    want_ccw = not ring.is_hole
-    if (_signed_area(p) > 0.0) != want_ccw:
-        p = p[::-1]
-    return p
-
-
-@dataclass(frozen=True)
-class _Region:
-    """Oriented rings, their segments and the region polygon (prepared for point tests)."""
-
-    rings: list[np.ndarray]
-    ring_tag: np.ndarray
-    tag_names: tuple[str, ...]
-    polygon: shapely.Polygon
-    seg_a: np.ndarray
-    seg_b: np.ndarray
-    seg_tag: np.ndarray
-
-
-def _region(rings: Sequence[TaggedRing]) -> _Region:
-    if not rings:
-        raise ValueError("no rings to mesh")
-    cleaned = [_clean_ring(r, i) for i, r in enumerate(rings)]
-    outer = [i for i, r in enumerate(rings) if not r.is_hole]
-    if len(outer) != 1:
-        raise ValueError(f"need exactly one outline ring (is_hole=False), got {len(outer)}")
-    names: list[str] = []
-    for r in rings:
-        if r.tag not in names:
-            names.append(r.tag)
-    ring_tag = np.array([names.index(r.tag) for r in rings], dtype=np.int64)
-    holes = [cleaned[i] for i, r in enumerate(rings) if r.is_hole]
-    poly = shapely.Polygon(cleaned[outer[0]], holes)
-    if not poly.is_valid:
-        raise ValueError(
-            "rings do not bound a valid region (holes must lie inside the outline and must not "
-            f"touch or overlap each other; merge them first): {shapely.is_valid_reason(poly)}"
-        )
-    shapely.prepare(poly)
-    seg_a = np.vstack(cleaned)
-    seg_b = np.vstack([np.roll(p, -1, axis=0) for p in cleaned])
-    seg_tag = np.repeat(ring_tag, [len(p) for p in cleaned])
-    return _Region(cleaned, ring_tag, tuple(names), poly, seg_a, seg_b, seg_tag)
-
-
-def _discretize_boundary(
-    reg: _Region, field: SizeField
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Boundary nodes (b, 2) and segments (k, 2) int (domain on the left) with tags (k,) int.
-
-    Each input segment is cut into ``round(integral ds / h)`` pieces (at least 1) with ends
-    equidistributed in ``integral ds / h``; new points lie on the segment.
-    """
-    a, b = reg.seg_a, reg.seg_b
-    d = b - a
-    length = np.hypot(d[:, 0], d[:, 1])
-    mid = 0.5 * (a + b)
-    hmin = np.minimum(np.minimum(field(a), field(b)), field(mid))
-    nf = np.clip(np.ceil(4.0 * length / hmin), 1, 100000).astype(np.int64)
-    # Samples t = 0, 1/nf, ..., 1 on every segment (its own end included).
-    seg = np.repeat(np.arange(len(a)), nf + 1)
-    first = np.cumsum(nf + 1) - (nf + 1)
-    t = (np.arange(len(seg)) - np.repeat(first, nf + 1)) / nf[seg]
-    inv_h = 1.0 / field(a[seg] + t[:, None] * d[seg])
-    piece = 0.5 * (inv_h[:-1] + inv_h[1:]) * np.diff(t) * length[seg[:-1]]
-    piece[(first + nf)[:-1]] = 0.0  # no contribution from one segment's end to the next start
-    g = np.concatenate([[0.0], np.cumsum(piece)])
-    u = seg + t
-    g_start = g[first]
-    total = g[first + nf] - g_start
-    n = np.maximum(1, np.rint(total).astype(np.int64))
-    # Points of segment i: its start vertex, then k = 1 .. n_i - 1 equidistributed points.
-    owner = np.repeat(np.arange(len(a)), n)
-    kfirst = np.cumsum(n) - n
-    k = np.arange(len(owner)) - np.repeat(kfirst, n)
-    target = g_start[owner] + total[owner] * k / n[owner]
-    uu = np.interp(target, g, u)
-    tt = np.where(k == 0, 0.0, np.clip(uu - owner, 0.0, 1.0))
-    nodes = a[owner] + tt[:, None] * d[owner]
-    # Consecutive nodes within each ring form the boundary segments.
-    counts = np.bincount(np.repeat(np.arange(len(reg.rings)), [len(p) for p in reg.rings]),
-                         weights=n, minlength=len(reg.rings)).astype(np.int64)
-    start = np.cumsum(counts) - counts
-    idx = np.arange(len(nodes))
-    ring_of = np.repeat(np.arange(len(reg.rings)), counts)
-    nxt = idx + 1
-    last = start + counts - 1
-    nxt[last] = start
-    segs = np.column_stack([idx, nxt])
-    return nodes, segs, reg.ring_tag[ring_of]
-
-
-def _dense_boundary(nodes: np.ndarray, segs: np.ndarray, per_edge: int = 4) -> np.ndarray:
-    """Points along the boundary segments: (k * per_edge, 2) float, mm."""
-    a = nodes[segs[:, 0]]
-    d = nodes[segs[:, 1]] - a
-    t = (np.arange(per_edge) + 0.5) / per_edge
-    return (a[:, None, :] + t[None, :, None] * d[:, None, :]).reshape(-1, 2)
 
 
 def _isin_int(a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -283,7 +153,7 @@ class _Work:
         self.tags = np.concatenate([self.tags, self.tags[which]])
 
 
-def _recover_and_smooth(work: _Work, reg: _Region, field: SizeField) -> np.ndarray:
+def _recover_and_smooth(work: _Work, reg: Region, field: SizeField) -> np.ndarray:
     """Boundary recovery, then smoothing of the interior nodes; returns the inside triangles.
 
     Recovery may split boundary segments and drop interior nodes; the smoothed interior nodes
@@ -294,14 +164,14 @@ def _recover_and_smooth(work: _Work, reg: _Region, field: SizeField) -> np.ndarr
     nb = len(work.bnodes)
     if len(work.inner) == 0:
         return tri
-    p, tri = smooth_interior(work.nodes, tri, nb, _dense_boundary(work.bnodes, work.segs),
+    p, tri = smooth_interior(work.nodes, tri, nb, dense_boundary(work.bnodes, work.segs),
                              reg.polygon, field)
     work.inner = p[nb:]
     return tri
 
 
 def _interior_nodes(
-    reg: _Region, field: SizeField, bnodes: np.ndarray, segs: np.ndarray
+    reg: Region, field: SizeField, bnodes: np.ndarray, segs: np.ndarray
 ) -> np.ndarray:
     """Lattice nodes inside the region, kept clear of the boundary: (p, 2) float, mm."""
     bbox = tuple(float(v) for v in reg.polygon.bounds)
@@ -319,13 +189,13 @@ def _interior_nodes(
     h = field(pts)
     seg_len = np.hypot(*(bnodes[segs[:, 1]] - bnodes[segs[:, 0]]).T)
     per_edge = 4
-    tree = cKDTree(_dense_boundary(bnodes, segs, per_edge))
+    tree = cKDTree(dense_boundary(bnodes, segs, per_edge))
     db, idx = tree.query(pts)
     near_len = seg_len[idx // per_edge]
     return pts[db >= _BOUNDARY_GAP * np.maximum(h, near_len)]
 
 
-def _estimate_nodes(reg: _Region, field: SizeField, boundary_nodes: int) -> float:
+def _estimate_nodes(reg: Region, field: SizeField, boundary_nodes: int) -> float:
     """Expected node count: boundary nodes + integral of 2 / (sqrt(3) h^2) over the region."""
     x0, y0, x1, y1 = reg.polygon.bounds
     cells = 200
@@ -392,7 +262,7 @@ def mesh_rings(
     domain lies to the left of each boundary edge. Raises ValueError for rings that do not
     bound a valid region (holes outside the outline, touching or overlapping rings).
     """
-    reg = _region(rings)
+    reg = region_of(rings)
     h0 = default_size_mm(rings) if size_mm is None else float(size_mm)
     if not (h0 > 0.0 and math.isfinite(h0)):
         raise ValueError(f"size_mm must be a positive number, got {size_mm!r}")
@@ -402,7 +272,7 @@ def mesh_rings(
     if not grading > 0.0:
         raise ValueError(f"grading must be positive, got {grading!r}")
     field = boundary_size_field(reg.seg_a, reg.seg_b, h0, hmin, grading)
-    bnodes, segs, tags = _discretize_boundary(reg, field)
+    bnodes, segs, tags = discretize_boundary(reg, field)
     if max_nodes is not None:
         estimate = _estimate_nodes(reg, field, len(bnodes))
         if estimate > max_nodes:

@@ -17,7 +17,7 @@ import math
 import numpy as np
 import shapely
 
-from platewright.fea.mesh.mesher import TaggedRing
+from platewright.fea.mesh.boundary import TaggedRing
 from platewright.fea.mesh.sizing import FEATURE_FRACTION
 from platewright.geometry.model import Plate
 from platewright.geometry.plate.curves import Contour, segment_arc

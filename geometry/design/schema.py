@@ -20,29 +20,27 @@ from dataclasses import dataclass
 from typing import Any
 
 from platewright.geometry.design.expressions import ExpressionError, resolve_references
-from platewright.geometry.design.spec import (
-    BAD,
+from platewright.geometry.design.spec import BAD, Context, Spec, suggest, unit_of
+from platewright.geometry.design.spec_records import (
     AnyOf,
     Choice,
-    Context,
     Field,
+    ListOf,
+    Raw,
+    Record,
+    RefTable,
+    Tagged,
+    markdown_table,
+)
+from platewright.geometry.design.spec_values import (
     Flag,
     Integer,
-    ListOf,
     Number,
     NumberList,
     NumberOrList,
     Point,
     PointList,
-    Raw,
-    Record,
-    RefTable,
-    Spec,
-    Tagged,
     Text,
-    markdown_table,
-    suggest,
-    unit_of,
 )
 from platewright.geometry.design.yamlsource import LineMap, format_path
 from platewright.geometry.errors import Problem

@@ -15,9 +15,9 @@ from platewright.geometry.library import MotorPattern, clearance_hole_mm
 from platewright.geometry.model import Feature, Material
 from platewright.geometry.plate.curves import circle
 from platewright.geometry.plate.outlines import (
-    _check_finite,
-    _check_point,
-    _check_positive,
+    check_finite,
+    check_point,
+    check_positive,
     rounded_rect_contour,
     stadium_contour,
 )
@@ -66,9 +66,9 @@ def round_hole(
 
     ``fit_allowance_mm`` (signed, mm) is recorded for the cut stage, not applied here.
     """
-    c = _check_point("center_mm", center_mm)
-    d = _check_positive("diameter_mm", diameter_mm)
-    allowance = _check_finite("fit_allowance_mm", fit_allowance_mm)
+    c = check_point("center_mm", center_mm)
+    d = check_positive("diameter_mm", diameter_mm)
+    allowance = check_finite("fit_allowance_mm", fit_allowance_mm)
     if d + allowance <= 0:
         raise ValueError(
             f"fit_allowance_mm: {allowance} leaves no hole of nominal diameter {d} mm "
@@ -130,21 +130,21 @@ def slotted_bore(
         )
     dims: dict[str, float] = {}
     if trim_deg is not None:
-        t = _check_finite("trim_deg", trim_deg)
+        t = check_finite("trim_deg", trim_deg)
         if not 0.0 < t <= 45.0:
             raise ValueError(f"trim_deg: must be in (0, 45] degrees, got {trim_deg!r}")
         if span_mm is None:
             raise ValueError("span_mm: required with trim_deg (distance to the pivot support)")
-        span = _check_positive("span_mm", span_mm)
+        span = check_positive("span_mm", span_mm)
         travel = span * math.tan(math.radians(t))
         dims.update(trim_deg=t, span_mm=span)
     else:
         if span_mm is not None:
             raise ValueError("span_mm: only used with trim_deg; give travel_mm or trim_deg")
-        travel = _check_positive("travel_mm", travel_mm)  # type: ignore[arg-type]
-    c = _check_point("center_mm", center_mm)
-    d = _check_positive("diameter_mm", diameter_mm)
-    ang = _check_finite("direction_deg", direction_deg)
+        travel = check_positive("travel_mm", travel_mm)  # type: ignore[arg-type]
+    c = check_point("center_mm", center_mm)
+    d = check_positive("diameter_mm", diameter_mm)
+    ang = check_finite("direction_deg", direction_deg)
     allowance = _fit(fit_class, material)
     if d + allowance <= 0:
         raise ValueError(f"fit_class: {fit_class!r} allowance {allowance} mm leaves no slot")
@@ -167,7 +167,7 @@ def slot(
     refs: Sequence[str] = (),
 ) -> Feature:
     """A stadium slot of overall ``length_mm`` and ``width_mm`` (mm), long axis at ``angle_deg``."""
-    c = _check_point("center_mm", center_mm)
+    c = check_point("center_mm", center_mm)
     contour = stadium_contour(c, length_mm, width_mm, angle_deg).reversed()
     return Feature(
         id=fid, kind=kind, center_mm=c, contours=(contour,),
@@ -188,7 +188,7 @@ def cutout(
 ) -> Feature:
     """A rounded-rectangle hole (kind ``cutout``), ``width_mm`` x ``height_mm``, turned by
     ``angle_deg`` about its centre; clockwise contour."""
-    c = _check_point("center_mm", center_mm)
+    c = check_point("center_mm", center_mm)
     contour = rounded_rect_contour(c, width_mm, height_mm, corner_radius_mm, angle_deg)
     return Feature(
         id=fid, kind="cutout", center_mm=c, contours=(contour.reversed(),),
@@ -235,13 +235,13 @@ def fastener_array(
     ``angle_deg`` about ``origin_mm``. ``centered``: the grid's centre is at ``origin_mm``;
     otherwise the first hole is. Ids ``f"{fid}.hole1"`` ... row by row.
     """
-    o = _check_point("origin_mm", origin_mm)
+    o = check_point("origin_mm", origin_mm)
     for name, n in (("rows", rows), ("cols", cols)):
         if isinstance(n, bool) or not isinstance(n, int) or n < 1:
             raise ValueError(f"{name}: must be a whole number 1 or more, got {n!r}")
-    px = _check_positive("pitch_x_mm", pitch_x_mm) if cols > 1 else 0.0
-    py = _check_positive("pitch_y_mm", pitch_y_mm) if rows > 1 else 0.0
-    ang = _check_finite("angle_deg", angle_deg)
+    px = check_positive("pitch_x_mm", pitch_x_mm) if cols > 1 else 0.0
+    py = check_positive("pitch_y_mm", pitch_y_mm) if rows > 1 else 0.0
+    ang = check_finite("angle_deg", angle_deg)
     x0 = -(cols - 1) * px / 2.0 if centered else 0.0
     y0 = -(rows - 1) * py / 2.0 if centered else 0.0
     out = []
@@ -263,12 +263,12 @@ def _mount(
     note: str,
     pilot_allowance_mm: float = 0.0,
 ) -> list[Feature]:
-    c = _check_point("center_mm", center_mm)
-    ang = _check_finite("angle_deg", angle_deg)
+    c = check_point("center_mm", center_mm)
+    ang = check_finite("angle_deg", angle_deg)
     out: list[Feature] = []
     if pilot_diameter_mm is not None:
         out.append(round_hole(
-            f"{fid}.pilot", c, _check_positive("pilot_diameter_mm", pilot_diameter_mm),
+            f"{fid}.pilot", c, check_positive("pilot_diameter_mm", pilot_diameter_mm),
             kind="pilot", fit_allowance_mm=pilot_allowance_mm,
             fit_class="clearance" if pilot_allowance_mm else "", note=note, refs=refs,
         ))
@@ -277,9 +277,9 @@ def _mount(
             x, y, d = h
         except (TypeError, ValueError):
             raise ValueError(f"holes[{i}]: expected (x_mm, y_mm, diameter_mm), got {h!r}") from None
-        x = _check_finite(f"holes[{i}].x_mm", x)
-        y = _check_finite(f"holes[{i}].y_mm", y)
-        d = _check_positive(f"holes[{i}].diameter_mm", d)
+        x = check_finite(f"holes[{i}].x_mm", x)
+        y = check_finite(f"holes[{i}].y_mm", y)
+        d = check_positive(f"holes[{i}].diameter_mm", d)
         dx, dy = _rotate(x, y, ang)
         out.append(round_hole(f"{fid}.hole{i + 1}", (c[0] + dx, c[1] + dy), d,
                               kind="mount_hole", note=note, refs=refs))
@@ -312,8 +312,8 @@ def motor_mount(
     if motor.strap is None:
         raise ValueError(f"strap: motor {motor.key!r} has no strap pattern "
                          "(strap mounts exist for round gearmotors)")
-    c = _check_point("center_mm", center_mm)
-    ang = _check_finite("angle_deg", angle_deg)
+    c = check_point("center_mm", center_mm)
+    ang = check_finite("angle_deg", angle_deg)
     s = motor.strap
     out = []
     for i, side in enumerate((1.0, -1.0)):

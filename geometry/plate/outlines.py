@@ -27,25 +27,25 @@ __all__ = [
 _QUARTER_BULGE = math.tan(math.pi / 8.0)
 
 
-def _check_finite(name: str, value: float) -> float:
+def check_finite(name: str, value: float) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
         raise ValueError(f"{name}: expected a finite number in mm, got {value!r}")
     return float(value)
 
 
-def _check_positive(name: str, value: float) -> float:
-    v = _check_finite(name, value)
+def check_positive(name: str, value: float) -> float:
+    v = check_finite(name, value)
     if v <= 0:
         raise ValueError(f"{name}: must be greater than zero, got {value!r}")
     return v
 
 
-def _check_point(name: str, value: Sequence[float]) -> tuple[float, float]:
+def check_point(name: str, value: Sequence[float]) -> tuple[float, float]:
     try:
         x, y = value
     except (TypeError, ValueError):
         raise ValueError(f"{name}: expected a point [x, y] in mm, got {value!r}") from None
-    return _check_finite(f"{name}[0]", x), _check_finite(f"{name}[1]", y)
+    return check_finite(f"{name}[0]", x), check_finite(f"{name}[1]", y)
 
 
 def _drop_repeats(vertices: list[np.ndarray], bulges: list[float]) -> Contour:
@@ -79,11 +79,11 @@ def rounded_rect_contour(
     ``angle_deg`` turns it counter-clockwise about its centre. The radius may be at most half the
     smaller side (equal to it gives a stadium). ValueError for sizes that are not valid.
     """
-    cx, cy = _check_point("center_mm", center_mm)
-    w = _check_positive("width_mm", width_mm)
-    h = _check_positive("height_mm", height_mm)
-    r = _check_finite("corner_radius_mm", corner_radius_mm)
-    ang = _check_finite("angle_deg", angle_deg)
+    cx, cy = check_point("center_mm", center_mm)
+    w = check_positive("width_mm", width_mm)
+    h = check_positive("height_mm", height_mm)
+    r = check_finite("corner_radius_mm", corner_radius_mm)
+    ang = check_finite("angle_deg", angle_deg)
     if r < 0:
         raise ValueError(f"corner_radius_mm: must be zero or more, got {corner_radius_mm!r}")
     if r > min(w, h) / 2.0 + LENGTH_TOL_MM:
@@ -114,10 +114,10 @@ def stadium_contour(
     The long axis points along ``angle_deg`` (counter-clockwise from +x). Equal length and width
     give a circle. ValueError when the length is under the width.
     """
-    cx, cy = _check_point("center_mm", center_mm)
-    length = _check_positive("length_mm", length_mm)
-    w = _check_positive("width_mm", width_mm)
-    ang = _check_finite("angle_deg", angle_deg)
+    cx, cy = check_point("center_mm", center_mm)
+    length = check_positive("length_mm", length_mm)
+    w = check_positive("width_mm", width_mm)
+    ang = check_finite("angle_deg", angle_deg)
     if length < w - LENGTH_TOL_MM:
         raise ValueError(
             f"length_mm: {length} is shorter than width_mm {w} (the overall length of a slot is "

@@ -24,13 +24,13 @@ import yaml
 
 # the checked-number and unknown-key helpers are shared with the other bundled libraries
 from platewright.geometry.library import (
-    _FIT_CLASSES,
-    _TEMPLATES,
-    _materials_cached,
-    _number,
-    _pair,
-    _unknown_key,
+    FIT_CLASSES,
+    TEMPLATES,
     get_material,
+    materials_cached,
+    read_number,
+    read_pair,
+    unknown_key_problem,
 )
 
 __all__ = [
@@ -137,7 +137,7 @@ def _checked(fn, *args, **kwargs):
 
 
 def _material_key(path: str, key: Any) -> str:
-    mats = _materials_cached()  # read only here
+    mats = materials_cached()  # read only here
     key = str(key)
     if key not in mats:
         raise ProfileFieldError(path, f"unknown material {key!r}", _did_you_mean(key, sorted(mats)))
@@ -169,7 +169,7 @@ def _rows(where: str, raw: Any, value_key: str) -> list[tuple[int, Any, Mapping]
 
 def _thickness(path: str, e: Mapping) -> float | None:
     t = e.get("thickness_mm")
-    return None if t is None else _checked(_number, f"{path}.thickness_mm", t, positive=True)
+    return None if t is None else _checked(read_number, f"{path}.thickness_mm", t, positive=True)
 
 
 def _table(where: str, raw: Any, value_key: str, allow_zero: bool = False) -> Table:
@@ -186,7 +186,7 @@ def _table(where: str, raw: Any, value_key: str, allow_zero: bool = False) -> Ta
             raise ProfileFieldError(ew, f"missing {value_key}")
         out.setdefault(mat, []).append((
             _thickness(ew, e),
-            _checked(_number, f"{ew}.{value_key}", e[value_key], positive=True,
+            _checked(read_number, f"{ew}.{value_key}", e[value_key], positive=True,
                      allow_zero=allow_zero),
         ))
     return {k: tuple(v) for k, v in out.items()}
@@ -196,22 +196,22 @@ def _fit_table(where: str, raw: Any) -> dict[str, tuple[tuple[float | None, dict
     if raw is None:
         return {}
     out: dict[str, list[tuple[float | None, dict[str, float]]]] = {}
-    valid = ("thickness_mm", *_FIT_CLASSES)
+    valid = ("thickness_mm", *FIT_CLASSES)
     for i, mat, e in _rows(where, raw, "press"):
         ew = f"{where}.{mat}[{i}]"
         fits: dict[str, float] = {}
         for k, v in e.items():
             if k == "thickness_mm":
                 continue
-            if k not in _FIT_CLASSES:
+            if k not in FIT_CLASSES:
                 raise ProfileFieldError(f"{ew}.{k}", f"unknown field {k!r}", _did_you_mean(k, valid))
-            a = _checked(_number, f"{ew}.{k}", v)
+            a = _checked(read_number, f"{ew}.{k}", v)
             if abs(a) > MAX_FIT_ALLOWANCE_MM:
                 raise ProfileFieldError(f"{ew}.{k}", f"allowance {a:g} mm is larger than "
                                         f"{MAX_FIT_ALLOWANCE_MM:g} mm", "check the measurement")
             fits[str(k)] = a
         if not fits:
-            raise ProfileFieldError(ew, "no fit class given", f"valid: {', '.join(_FIT_CLASSES)}")
+            raise ProfileFieldError(ew, "no fit class given", f"valid: {', '.join(FIT_CLASSES)}")
         out.setdefault(mat, []).append((_thickness(ew, e), fits))
     return {k: tuple(v) for k, v in out.items()}
 
@@ -236,9 +236,9 @@ def _sheets(raw: Any) -> tuple[SheetStock, ...]:
         price = s.get("price")
         out.append(SheetStock(
             material=_material_key(f"{sw}.material", s["material"]),
-            thickness_mm=_checked(_number, f"{sw}.thickness_mm", s["thickness_mm"], positive=True),
-            size_mm=_checked(_pair, f"{sw}.size_mm", s["size_mm"]),
-            price=None if price is None else _checked(_number, f"{sw}.price", price,
+            thickness_mm=_checked(read_number, f"{sw}.thickness_mm", s["thickness_mm"], positive=True),
+            size_mm=_checked(read_pair, f"{sw}.size_mm", s["size_mm"]),
+            price=None if price is None else _checked(read_number, f"{sw}.price", price,
                                                       positive=True, allow_zero=True),
         ))
     return tuple(out)
@@ -269,7 +269,7 @@ def machine_from_mapping(d: Mapping[str, Any], key: str = "inline") -> MachinePr
 
     def opt(name: str, allow_zero: bool = False) -> float | None:
         v = d.get(name)
-        return None if v is None else _checked(_number, name, v, positive=True,
+        return None if v is None else _checked(read_number, name, v, positive=True,
                                                allow_zero=allow_zero)
 
     bed = d.get("bed_mm")
@@ -279,7 +279,7 @@ def machine_from_mapping(d: Mapping[str, Any], key: str = "inline") -> MachinePr
     return MachineProfile(
         key=key,
         name=_text(d, "name", key),
-        bed_mm=None if bed is None else _checked(_pair, "bed_mm", bed),
+        bed_mm=None if bed is None else _checked(read_pair, "bed_mm", bed),
         kerf_mm=opt("kerf_mm", allow_zero=True),
         kerf_by_material=_table("kerf_mm_by_material", d.get("kerf_mm_by_material"), "kerf_mm",
                                 allow_zero=True),
@@ -303,7 +303,7 @@ def machine_from_mapping(d: Mapping[str, Any], key: str = "inline") -> MachinePr
 @lru_cache(maxsize=1)
 def _machines_cached() -> dict[str, MachineProfile]:
     out: dict[str, MachineProfile] = {}
-    folder = files(_TEMPLATES) / "machines"
+    folder = files(TEMPLATES) / "machines"
     for entry in sorted(folder.iterdir(), key=lambda p: p.name):
         if entry.name.endswith(".yaml"):
             key = entry.name[: -len(".yaml")]
@@ -321,7 +321,7 @@ def get_machine(key: str) -> MachineProfile:
     """The bundled machine profile ``key``; KeyError naming close matches and the valid keys."""
     cached = _machines_cached()
     if key not in cached:
-        raise _unknown_key("machine", key, list(cached))
+        raise unknown_key_problem("machine", key, list(cached))
     return copy.deepcopy(cached[key])
 
 

@@ -1,8 +1,8 @@
 """Placement geometry of the sheet nesting: where one part may go on one partly filled sheet.
 
 Used by :func:`.nesting.nest_parts` (the sheet-level driver; its module text gives the method).
-Here: a part at one rotation as shapely polygons (``_Shape``: the as-cut area, its footprint grown
-by the clearance, its edges and probe points), a sheet being filled (``_Sheet``: placed
+Here: a part at one rotation as shapely polygons (``PartShape``: the as-cut area, its footprint grown
+by the clearance, its edges and probe points), a sheet being filled (``SheetState``: placed
 footprints, their edges, an STRtree and a prepared union), the candidate translations in
 bottom-left order (edges of the sheet, of the placed parts and of their holes), the first free
 candidate (probe points against the union, then the exact test against the STRtree), the
@@ -39,7 +39,7 @@ _PROBES = 24
 
 
 @dataclass
-class _Shape:
+class PartShape:
     """One item at one rotation, plate origin at the sheet origin (mm)."""
 
     raw: shapely.Polygon          # as cut paths: outline path minus inner paths
@@ -62,7 +62,7 @@ class _Shape:
 
 
 @dataclass
-class _Sheet:
+class SheetState:
     """A sheet being filled: placed footprints, their edges and an STRtree over them."""
 
     feet: list[shapely.Polygon] = field(default_factory=list)
@@ -83,7 +83,7 @@ def _rings_edges(poly: shapely.Polygon) -> np.ndarray:
     return np.concatenate(out)
 
 
-def _shape(base: shapely.Polygon, angle_deg: float, clearance_mm: float) -> _Shape:
+def part_shape(base: shapely.Polygon, angle_deg: float, clearance_mm: float) -> PartShape:
     raw = affinity.rotate(base, angle_deg, origin=(0.0, 0.0))
     # circumscribed round joins: chords stay outside the exact offset curve
     grow = clearance_mm / math.cos(math.pi / (4 * _QUAD_SEGS))
@@ -91,7 +91,7 @@ def _shape(base: shapely.Polygon, angle_deg: float, clearance_mm: float) -> _Sha
     if not isinstance(foot, shapely.Polygon):
         foot = max(foot.geoms, key=lambda g: g.area)
     test = shapely.buffer(raw, grow - _TEST_SHRINK_MM, quad_segs=_QUAD_SEGS)
-    return _Shape(raw, foot, test, np.array(raw.bounds), np.array(foot.bounds), _rings_edges(foot))
+    return PartShape(raw, foot, test, np.array(raw.bounds), np.array(foot.bounds), _rings_edges(foot))
 
 
 def _drop(moving: np.ndarray, obstacles: np.ndarray) -> float:
@@ -117,7 +117,7 @@ def _drop(moving: np.ndarray, obstacles: np.ndarray) -> float:
     return max(best, 0.0)
 
 
-def _slide(sheet: _Sheet, shape: _Shape, usable: np.ndarray, tx: float, ty: float
+def _slide(sheet: SheetState, shape: PartShape, usable: np.ndarray, tx: float, ty: float
            ) -> tuple[float, float]:
     """Bottom-left move: down as far as possible, then left, until neither moves (mm)."""
     obst = np.concatenate(sheet.edges) if sheet.edges else np.zeros((0, 2, 2))
@@ -146,7 +146,7 @@ def _slide(sheet: _Sheet, shape: _Shape, usable: np.ndarray, tx: float, ty: floa
     return tx, ty
 
 
-def _candidates(sheet: _Sheet, shape: _Shape, usable: np.ndarray) -> np.ndarray:
+def _candidates(sheet: SheetState, shape: PartShape, usable: np.ndarray) -> np.ndarray:
     """(n, 2) float translations to try, in bottom-left order (y, then x)."""
     fb, rb = shape.foot_box, shape.raw_box
     fc = (fb[:2] + fb[2:]) / 2.0
@@ -167,7 +167,7 @@ def _candidates(sheet: _Sheet, shape: _Shape, usable: np.ndarray) -> np.ndarray:
     return np.column_stack([gx.ravel(), gy.ravel()])
 
 
-def _first_free(sheet: _Sheet, shape: _Shape, cands: np.ndarray) -> tuple[float, float] | None:
+def _first_free(sheet: SheetState, shape: PartShape, cands: np.ndarray) -> tuple[float, float] | None:
     """The first candidate (bottom-left order) whose footprint overlaps no placed footprint."""
     if sheet.tree is None:
         return (float(cands[0, 0]), float(cands[0, 1])) if len(cands) else None
@@ -192,7 +192,7 @@ def _first_free(sheet: _Sheet, shape: _Shape, cands: np.ndarray) -> tuple[float,
     return None
 
 
-def _try_sheet(sheet: _Sheet, shapes: Sequence[tuple[int, float, _Shape]], usable: np.ndarray,
+def try_sheet(sheet: SheetState, shapes: Sequence[tuple[int, float, PartShape]], usable: np.ndarray,
                area: float) -> tuple[int, float, float, float] | None:
     """Best (rotation index, angle, tx, ty) for one item on one sheet, or None."""
     if area > sheet.free_area_mm2 + 1e-9:
@@ -212,7 +212,7 @@ def _try_sheet(sheet: _Sheet, shapes: Sequence[tuple[int, float, _Shape]], usabl
     return None if best is None else best[1:]
 
 
-def _add(sheet: _Sheet, shape: _Shape, tx: float, ty: float, record: tuple) -> None:
+def add_part(sheet: SheetState, shape: PartShape, tx: float, ty: float, record: tuple) -> None:
     foot = affinity.translate(shape.foot, tx, ty)
     sheet.feet.append(foot)
     sheet.edges.append(shape.edges + np.array([tx, ty]))

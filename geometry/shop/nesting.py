@@ -45,7 +45,7 @@ from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.model import CutContour, Plate
 from platewright.geometry.plate.curves import Contour
 from platewright.geometry.plate.region import plate_region, to_polygon
-from platewright.geometry.shop.nest_placement import _add, _Shape, _shape, _Sheet, _try_sheet
+from platewright.geometry.shop.nest_placement import PartShape, SheetState, add_part, part_shape, try_sheet
 from platewright.geometry.tolerances import CHORD_TOL_MM
 
 __all__ = [
@@ -194,7 +194,7 @@ def nest_parts(items: Sequence[NestItem], sheets: Mapping[tuple[str, float], She
         if it.quantity > 0:
             groups.setdefault((it.plate.material.key, float(it.plate.thickness_mm)), []).append(i)
     problems: list[Problem] = []
-    shapes: dict[int, list[tuple[int, float, _Shape]]] = {}
+    shapes: dict[int, list[tuple[int, float, PartShape]]] = {}
     areas: dict[int, float] = {}
     for (mat, t), idx in groups.items():
         size = sheets.get((mat, t))
@@ -206,9 +206,9 @@ def nest_parts(items: Sequence[NestItem], sheets: Mapping[tuple[str, float], She
         for i in idx:
             base = _item_polygon(items[i], chord_tol_mm)
             areas[i] = float(plate_region(items[i].plate, chord_tol_mm).area)
-            kept: list[tuple[int, float, _Shape]] = []
+            kept: list[tuple[int, float, PartShape]] = []
             for r, a in enumerate(angles):
-                s = _shape(base, a, clearance)
+                s = part_shape(base, a, clearance)
                 same = any(shapely.equals_exact(
                     affinity.translate(s.raw, *(k.raw_box[:2] - s.raw_box[:2])), k.raw, 1e-6)
                     for _, _, k in kept)
@@ -234,29 +234,29 @@ def nest_parts(items: Sequence[NestItem], sheets: Mapping[tuple[str, float], She
         usable_area = float((usable[2] - usable[0]) * (usable[3] - usable[1]))
         units = [(i, c) for i in idx for c in range(1, items[i].quantity + 1)]
         units.sort(key=lambda u: (-shapes[u[0]][0][2].foot.envelope.area, items[u[0]].label, u[1]))
-        open_sheets: list[_Sheet] = []
+        open_sheets: list[SheetState] = []
         for i, copy in units:
             placed = False
             for sheet in open_sheets:
                 if (i, 0) in sheet.failed:
                     continue
-                got = _try_sheet(sheet, shapes[i], usable, shapes[i][0][2].raw.area)
+                got = try_sheet(sheet, shapes[i], usable, shapes[i][0][2].raw.area)
                 if got is None:
                     sheet.failed.add((i, 0))
                     continue
                 r, a, tx, ty = got
                 shape = next(s for rr, _, s in shapes[i] if rr == r)
-                _add(sheet, shape, tx, ty, (i, copy, a, tx, ty))
+                add_part(sheet, shape, tx, ty, (i, copy, a, tx, ty))
                 placed = True
                 break
             if not placed:
-                sheet = _Sheet(free_area_mm2=usable_area)
-                got = _try_sheet(sheet, shapes[i], usable, 0.0)
+                sheet = SheetState(free_area_mm2=usable_area)
+                got = try_sheet(sheet, shapes[i], usable, 0.0)
                 if got is None:  # cannot happen: fit was checked on an empty sheet
                     raise DesignError(Problem(items[i].label, "part does not fit on an empty sheet"))
                 r, a, tx, ty = got
                 shape = next(s for rr, _, s in shapes[i] if rr == r)
-                _add(sheet, shape, tx, ty, (i, copy, a, tx, ty))
+                add_part(sheet, shape, tx, ty, (i, copy, a, tx, ty))
                 open_sheets.append(sheet)
         for sheet in open_sheets:
             placements = [Placement(items[i].label, c, a, tx, ty) for i, c, a, tx, ty in sheet.placed]

@@ -60,7 +60,7 @@ _XDATA_STRING = 1000
 _INSUNITS_MM = 4
 _MEASUREMENT_METRIC = 1
 #: Notes text height, mm.
-_NOTE_HEIGHT_MM = 3.0
+NOTE_HEIGHT_MM = 3.0
 #: Digits kept when comparing paths for duplicates (0.1 nm).
 _DEDUP_DIGITS = 7
 
@@ -171,7 +171,7 @@ def write_plate_dxf(plate: Plate, cut: list[CutContour], path: str | os.PathLike
             entity = written[key]
             ids = entity_feature_ids(entity)
             if cc.feature_id not in ids:
-                _set_ids(entity, (*ids, cc.feature_id))
+                set_feature_ids(entity, (*ids, cc.feature_id))
             continue
         if cc.path.is_circle:
             center, r = cc.path.circle_center_radius()
@@ -182,14 +182,14 @@ def write_plate_dxf(plate: Plate, cut: list[CutContour], path: str | os.PathLike
                 [tuple(r) for r in rows.tolist()], format="xyb", close=True,
                 dxfattribs={"layer": layer},
             )
-        _set_ids(entity, (cc.feature_id,))
+        set_feature_ids(entity, (cc.feature_id,))
         written[key] = entity
 
     _write_notes(msp, plate, cut)
     save_cut_document(doc, path)
 
 
-def _set_ids(entity, ids: tuple[str, ...]) -> None:
+def set_feature_ids(entity, ids: tuple[str, ...]) -> None:
     if entity.has_xdata(XDATA_APP):
         entity.discard_xdata(XDATA_APP)
     entity.set_xdata(XDATA_APP, [(_XDATA_STRING, i) for i in ids])
@@ -209,9 +209,9 @@ def _write_notes(msp, plate: Plate, cut: list[CutContour]) -> None:
         f"kerf used: {plate.kerf_mm:g} mm",
         "units: mm",
     ]
-    gap = 1.6 * _NOTE_HEIGHT_MM
-    top = y1 + 2.0 * _NOTE_HEIGHT_MM + gap * len(lines)
+    gap = 1.6 * NOTE_HEIGHT_MM
+    top = y1 + 2.0 * NOTE_HEIGHT_MM + gap * len(lines)
     for k, line in enumerate(lines):
         msp.add_text(
-            line, height=_NOTE_HEIGHT_MM, dxfattribs={"layer": LAYER_NOTES}
+            line, height=NOTE_HEIGHT_MM, dxfattribs={"layer": LAYER_NOTES}
         ).set_placement((x0, top - gap * k), align=TextEntityAlignment.LEFT)

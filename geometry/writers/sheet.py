@@ -26,17 +26,17 @@ from ezdxf.enums import TextEntityAlignment
 from platewright.geometry.model import Plate
 from platewright.geometry.shop.nesting import NestedSheet
 from platewright.geometry.writers.dxf import (
-    _NOTE_HEIGHT_MM,
     LAYER_CUT_INNER,
     LAYER_CUT_OUTER,
     LAYER_ENGRAVE,
     LAYER_NOTES,
-    _set_ids,
+    NOTE_HEIGHT_MM,
     new_cut_document,
     polyline_vertices,
     save_cut_document,
+    set_feature_ids,
 )
-from platewright.geometry.writers.svg import _COLOURS, HAIRLINE_MM, _n, _path_d
+from platewright.geometry.writers.svg import HAIRLINE_MM, LAYER_COLOURS, svg_num, svg_path_data
 
 __all__ = ["write_sheet_dxf", "sheet_svg_string", "write_sheet_svg"]
 
@@ -89,15 +89,15 @@ def write_sheet_dxf(sheet: NestedSheet, path: str | os.PathLike,
             rows = polyline_vertices(cc.path)
             entity = msp.add_lwpolyline([tuple(r) for r in rows.tolist()], format="xyb",
                                         close=True, dxfattribs=attribs)
-        _set_ids(entity, (cc.feature_id,))
+        set_feature_ids(entity, (cc.feature_id,))
     w, h = sheet.size.width_mm, sheet.size.height_mm
     msp.add_lwpolyline([(0, 0), (w, 0), (w, h), (0, h)], close=True,
                        dxfattribs={"layer": LAYER_NOTES})
-    gap = 1.6 * _NOTE_HEIGHT_MM
+    gap = 1.6 * NOTE_HEIGHT_MM
     lines = _notes(sheet)
-    top = h + 2.0 * _NOTE_HEIGHT_MM + gap * len(lines)
+    top = h + 2.0 * NOTE_HEIGHT_MM + gap * len(lines)
     for k, line in enumerate(lines):
-        msp.add_text(line, height=_NOTE_HEIGHT_MM, dxfattribs={"layer": LAYER_NOTES}
+        msp.add_text(line, height=NOTE_HEIGHT_MM, dxfattribs={"layer": LAYER_NOTES}
                      ).set_placement((0.0, top - gap * k), align=TextEntityAlignment.LEFT)
     save_cut_document(doc, path)
 
@@ -107,26 +107,26 @@ def sheet_svg_string(sheet: NestedSheet, plates: Mapping[str, Plate] | None = No
     w, h = sheet.size.width_mm, sheet.size.height_mm
     out = [
         '<?xml version="1.0" encoding="UTF-8"?>',
-        f'<svg xmlns="http://www.w3.org/2000/svg" version="1.1" width="{_n(w)}mm" '
-        f'height="{_n(h)}mm" viewBox="0 {_n(-h)} {_n(w)} {_n(h)}">',
+        f'<svg xmlns="http://www.w3.org/2000/svg" version="1.1" width="{svg_num(w)}mm" '
+        f'height="{svg_num(h)}mm" viewBox="0 {svg_num(-h)} {svg_num(w)} {svg_num(h)}">',
         f"<title>{escape('; '.join(_notes(sheet)))}</title>",
-        f'<g id="{LAYER_ENGRAVE}" fill="{_COLOURS[LAYER_ENGRAVE]}" stroke="none">',
+        f'<g id="{LAYER_ENGRAVE}" fill="{LAYER_COLOURS[LAYER_ENGRAVE]}" stroke="none">',
     ]
     for text, (x, y), height, rot, fid in _engravings(sheet, plates or {}):
         out.append(
-            f'<text x="{_n(x)}" y="{_n(-y)}" font-size="{_n(height)}" text-anchor="middle" '
-            f'dominant-baseline="central" transform="rotate({_n(-rot)} {_n(x)} {_n(-y)})" '
+            f'<text x="{svg_num(x)}" y="{svg_num(-y)}" font-size="{svg_num(height)}" text-anchor="middle" '
+            f'dominant-baseline="central" transform="rotate({svg_num(-rot)} {svg_num(x)} {svg_num(-y)})" '
             f"data-feature={quoteattr(fid)}>{escape(text)}</text>")
     out.append("</g>")
-    out.append(f'<g id="PW_CUTS" fill="none" stroke-width="{_n(HAIRLINE_MM)}">')
+    out.append(f'<g id="PW_CUTS" fill="none" stroke-width="{svg_num(HAIRLINE_MM)}">')
     for cc in sheet.cut:
         layer = _layer(cc.layer)
-        common = f'class="{layer}" stroke="{_COLOURS[layer]}" data-feature={quoteattr(cc.feature_id)}'
+        common = f'class="{layer}" stroke="{LAYER_COLOURS[layer]}" data-feature={quoteattr(cc.feature_id)}'
         if cc.path.is_circle:
             (cx, cy), r = cc.path.circle_center_radius()
-            out.append(f'<circle cx="{_n(cx)}" cy="{_n(-cy)}" r="{_n(r)}" {common}/>')
+            out.append(f'<circle cx="{svg_num(cx)}" cy="{svg_num(-cy)}" r="{svg_num(r)}" {common}/>')
         else:
-            out.append(f'<path d="{_path_d(cc.path)}" {common}/>')
+            out.append(f'<path d="{svg_path_data(cc.path)}" {common}/>')
     out.append("</g>")
     out.append("</svg>")
     return "\n".join(out) + "\n"

@@ -32,25 +32,25 @@ HAIRLINE_MM = 0.025
 #: Empty border around the drawing, mm.
 MARGIN_MM = 2.0
 #: Stroke colours per layer (platewright's choice).
-_COLOURS = {LAYER_ENGRAVE: "#1a9641", LAYER_CUT_INNER: "#0033cc", LAYER_CUT_OUTER: "#cc0000"}
+LAYER_COLOURS = {LAYER_ENGRAVE: "#1a9641", LAYER_CUT_INNER: "#0033cc", LAYER_CUT_OUTER: "#cc0000"}
 
 
-def _n(x: float) -> str:
+def svg_num(x: float) -> str:
     """A coordinate in mm, 6 decimals, no trailing zeros, no negative zero."""
     s = f"{x:.6f}".rstrip("0").rstrip(".")
     return "0" if s in ("-0", "") else s
 
 
-def _path_d(contour: Contour) -> str:
+def svg_path_data(contour: Contour) -> str:
     """SVG path data of a closed contour with y flipped; arcs as ``A`` commands."""
     rows = polyline_vertices(contour)
     n = len(rows)
-    parts = [f"M {_n(rows[0, 0])} {_n(-rows[0, 1])}"]
+    parts = [f"M {svg_num(rows[0, 0])} {svg_num(-rows[0, 1])}"]
     for i in range(n):
         x0, y0, b = rows[i]
         x1, y1 = rows[(i + 1) % n, :2]
         if b == 0.0:
-            parts.append(f"L {_n(x1)} {_n(-y1)}")
+            parts.append(f"L {svg_num(x1)} {svg_num(-y1)}")
             continue
         theta = 4.0 * math.atan(b)
         chord = math.hypot(x1 - x0, y1 - y0)
@@ -59,7 +59,7 @@ def _path_d(contour: Contour) -> str:
         # a counter-clockwise arc (theta > 0) in +y-up coordinates turns the negative-angle way
         # once y is flipped, which is SVG sweep-flag 0
         sweep = 0 if theta > 0 else 1
-        parts.append(f"A {_n(r)} {_n(r)} 0 {large} {sweep} {_n(x1)} {_n(-y1)}")
+        parts.append(f"A {svg_num(r)} {svg_num(r)} 0 {large} {sweep} {svg_num(x1)} {svg_num(-y1)}")
     parts.append("Z")
     return " ".join(parts)
 
@@ -78,26 +78,26 @@ def plate_svg_string(plate: Plate, cut: list[CutContour]) -> str:
     w, h = (x1 - x0) + 2 * MARGIN_MM, (y1 - y0) + 2 * MARGIN_MM
     out = [
         '<?xml version="1.0" encoding="UTF-8"?>',
-        f'<svg xmlns="http://www.w3.org/2000/svg" version="1.1" width="{_n(w)}mm" '
-        f'height="{_n(h)}mm" viewBox="{_n(vx)} {_n(vy)} {_n(w)} {_n(h)}">',
+        f'<svg xmlns="http://www.w3.org/2000/svg" version="1.1" width="{svg_num(w)}mm" '
+        f'height="{svg_num(h)}mm" viewBox="{svg_num(vx)} {svg_num(vy)} {svg_num(w)} {svg_num(h)}">',
         f"<title>{escape(plate.name)} ({escape(plate.material.name)}, "
         f"{plate.thickness_mm:g} mm, kerf {plate.kerf_mm:g} mm, units mm)</title>",
     ]
-    style = f'fill="none" stroke-width="{_n(HAIRLINE_MM)}"'
-    out.append(f'<g id="{LAYER_ENGRAVE}" fill="{_COLOURS[LAYER_ENGRAVE]}" stroke="none">')
+    style = f'fill="none" stroke-width="{svg_num(HAIRLINE_MM)}"'
+    out.append(f'<g id="{LAYER_ENGRAVE}" fill="{LAYER_COLOURS[LAYER_ENGRAVE]}" stroke="none">')
     for e in plate.engravings:
         x, y = e.position_mm
         # rotation is counter-clockwise in plate coordinates, clockwise-positive in SVG
         out.append(
-            f'<text x="{_n(x)}" y="{_n(-y)}" font-size="{_n(e.height_mm)}" '
+            f'<text x="{svg_num(x)}" y="{svg_num(-y)}" font-size="{svg_num(e.height_mm)}" '
             f'text-anchor="middle" dominant-baseline="central" '
-            f'transform="rotate({_n(-e.rotation_deg)} {_n(x)} {_n(-y)})" '
+            f'transform="rotate({svg_num(-e.rotation_deg)} {svg_num(x)} {svg_num(-y)})" '
             f"data-feature={quoteattr(e.id)}>{escape(e.text)}</text>"
         )
     out.append("</g>")
     ordered = sorted(cut, key=lambda c: (c.layer != "inner", c.order))
     for layer, which in ((LAYER_CUT_INNER, "inner"), (LAYER_CUT_OUTER, "outer")):
-        out.append(f'<g id="{layer}" stroke="{_COLOURS[layer]}" {style}>')
+        out.append(f'<g id="{layer}" stroke="{LAYER_COLOURS[layer]}" {style}>')
         for cc in ordered:
             if (cc.layer == "inner") != (which == "inner"):
                 continue
@@ -105,10 +105,10 @@ def plate_svg_string(plate: Plate, cut: list[CutContour]) -> str:
             if cc.path.is_circle:
                 (cx, cy), r = cc.path.circle_center_radius()
                 out.append(
-                    f'<circle cx="{_n(cx)}" cy="{_n(-cy)}" r="{_n(r)}" data-feature={fid}/>'
+                    f'<circle cx="{svg_num(cx)}" cy="{svg_num(-cy)}" r="{svg_num(r)}" data-feature={fid}/>'
                 )
             else:
-                out.append(f'<path d="{_path_d(cc.path)}" data-feature={fid}/>')
+                out.append(f'<path d="{svg_path_data(cc.path)}" data-feature={fid}/>')
         out.append("</g>")
     out.append("</svg>")
     return "\n".join(out) + "\n"
