@@ -252,7 +252,8 @@ class NestCommand(Command):
         costs = _costs(result, machines)
         plates = {it.label: it.plate for it in items}
         report = nest_report(result, items, design_of, designs, source, costs)
-        with staged_output(outdir) as tmp:
+        with staged_output(outdir, index_file="nest.json",
+                           protect=[f.path for d in designs for f in d.inputs]) as tmp:
             (tmp / "sheets").mkdir()
             svgs = []
             for s, entry in zip(result.sheets, report["sheets"]):
