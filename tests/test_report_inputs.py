@@ -83,3 +83,18 @@ def test_a_bundled_machine_adds_no_file(tmp_path: Path, capsys):
     design.write_text(DESIGN.format(machine="example_co2_60w"), encoding="utf-8")
     assert main(["build", str(design), "-o", str(tmp_path / "out"), "-q"]) == 0
     assert [i["role"] for i in report_of(tmp_path / "out")["inputs"]] == ["design"]
+
+
+def test_nest_and_sweep_record_their_inputs_too(tmp_path: Path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    Path("d.yaml").write_text(DESIGN.format(machine="example_co2_60w"), encoding="utf-8")
+    design_entry = {"role": "design", "path": "d.yaml", "sha256": sha(Path("d.yaml"))}
+    assert main(["nest", "d.yaml", "--sheet", "300x200", "-o", "nest", "-q",
+                 "--set", "references.wheelbase_mm=90"]) == 0
+    nest = json.loads(Path("nest/nest.json").read_text(encoding="utf-8"))
+    assert nest["overrides"] == ["references.wheelbase_mm=90"]
+    assert nest["inputs"] == [design_entry]
+    assert main(["sweep", "d.yaml", "--vary", "references.wheelbase_mm=80:90:10", "--jobs", "1",
+                 "-o", "sweep", "-q"]) in (0, 1)
+    sweep = json.loads(Path("sweep/sweep.json").read_text(encoding="utf-8"))
+    assert sweep["inputs"] == [design_entry]

@@ -20,7 +20,7 @@ from typing import Any
 from platewright.cli.commands.base import Command
 from platewright.cli.interrupts import exit_status
 from platewright.cli.outputs import output_folder, written_by_us
-from platewright.cli.reports.report_json import tool_version
+from platewright.cli.reports.report_json import input_entries, tool_version
 from platewright.cli.sweep.engine import (
     lighten_available,
     parse_vary,
@@ -98,6 +98,7 @@ class SweepCommand(Command):
             "tool": {"name": "platewright", "version": tool_version()},
             "design": {"name": design.name, "file": str(args.design), "sha256": design.sha256},
             "overrides": overrides,
+            "inputs": input_entries(design),
             "vary": [{"path": s.path, "start": s.start, "stop": s.stop, "step": s.step,
                       "values": list(s.values)} for s in specs],
             "check": args.check, "lighten": args.lighten, "combinations": len(jobs),
