@@ -196,19 +196,18 @@ def _remove_earlier(outdir: Path, earlier: dict[str, Hashes], written: dict[str,
 
 def _commit(staging: Path, outdir: Path, index_file: str, written: dict[str, str | None],
             protect: list[Path]) -> None:
-    outdir.mkdir(parents=True, exist_ok=True)
-    with folder_locked(outdir):
-        check_output_target(outdir)
-        _check_destinations(outdir, index_file, written, protect)
-        earlier = owned_files(outdir, index_file).mine
-        new = {p: frozenset([h] if h else []) for p, h in written.items()}
-        write_journal(outdir, index_file, merge(earlier, new))
-        for rel in sorted(written, key=lambda r: (r == index_file, r)):
-            dest = outdir / rel
-            dest.parent.mkdir(parents=True, exist_ok=True)
-            os.replace(staging / rel, dest)
-        _remove_earlier(outdir, earlier, written, protect)
-        journal_path(outdir, index_file).unlink()
+    """Move the staged files into ``outdir`` (the caller holds the folder's lock)."""
+    check_output_target(outdir)
+    _check_destinations(outdir, index_file, written, protect)
+    earlier = owned_files(outdir, index_file).mine
+    new = {p: frozenset([h] if h else []) for p, h in written.items()}
+    write_journal(outdir, index_file, merge(earlier, new))
+    for rel in sorted(written, key=lambda r: (r == index_file, r)):
+        dest = outdir / rel
+        dest.parent.mkdir(parents=True, exist_ok=True)
+        os.replace(staging / rel, dest)
+    _remove_earlier(outdir, earlier, written, protect)
+    journal_path(outdir, index_file).unlink()
 
 
 def _record_manifest(staging: Path, index_file: str) -> dict[str, str | None]:
@@ -238,7 +237,8 @@ def staged_output(outdir: Path, *, index_file: str = "report.json",
     try:
         yield staging
         written = _record_manifest(staging, index_file)
-        with signals_deferred():
+        target.mkdir(parents=True, exist_ok=True)
+        with folder_locked(target), signals_deferred():  # Ctrl-C still works while waiting
             _commit(staging, target, index_file, written, [Path(p).absolute() for p in protect])
     finally:
         shutil.rmtree(staging, ignore_errors=True)

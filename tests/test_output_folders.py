@@ -398,3 +398,30 @@ def test_a_folder_from_before_manifests_is_rebuilt_and_the_users_files_kept(tmp_
     assert run(["build", str(design), "-o", str(out), "-q"], capsys)[0] == 0
     assert (out / "notes.txt").read_text(encoding="utf-8") == "mine"
     assert "output_files" in json.loads((out / "report.json").read_text(encoding="utf-8"))
+
+
+@posix_only
+def test_sigterm_while_files_move_in_waits_until_the_output_is_whole(tmp_path):
+    out = tmp_path / "out"
+    design = tmp_path / "d.yaml"
+    design.write_text(SLED, encoding="utf-8")
+    child = """\
+import os, signal, sys
+from pathlib import Path
+out = Path(sys.argv[1])
+real = os.replace
+def replace(src, dst):
+    real(src, dst)
+    if Path(dst).parent == out / "plates":
+        os.kill(os.getpid(), signal.SIGTERM)  # as soon as the first file is in place
+os.replace = replace
+from platewright.cli.main import main
+sys.exit(main(["build", sys.argv[2], "-o", sys.argv[1], "-q"]))
+"""
+    proc = subprocess.run([sys.executable, "-c", child, str(out), str(design)],
+                          capture_output=True, text=True, timeout=300)
+    assert proc.returncode == 128 + signal.SIGTERM, proc.stderr
+    report = json.loads((out / "report.json").read_text(encoding="utf-8"))
+    listed = {e["path"] for e in report["output_files"]}
+    assert listed == set(tree(out))  # every file of the run, nothing else
+    assert _leftovers(tmp_path, {"d.yaml", "out"}) == []
