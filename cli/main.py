@@ -1,19 +1,57 @@
 """Entry point of the ``platewright`` command: registered subcommands over library functions.
 
 Exit status: 0 done; 1 done but a limit or rule failed (the report says which); 2 refused (bad
-input or a manufacturability error: nothing written).
+input or a manufacturability error: nothing written); 3 crashed (an unexpected error, or the
+system refused to read or write a file; nothing written; the traceback with ``--debug``);
+128 + N ended by signal N (130 Ctrl-C, 143 SIGTERM; no partial output left).
 """
 
 from __future__ import annotations
 
 import argparse
 import sys
+import traceback
 from collections.abc import Sequence
+from pathlib import Path
 
 from platewright.cli.commands.registry import COMMANDS
+from platewright.cli.interrupts import exit_status, signals_as_exceptions
 from platewright.geometry.errors import DesignError
 
-__all__ = ["main", "make_parser"]
+__all__ = ["main", "make_parser", "EXIT_CRASH"]
+
+#: exit status of a run that ended in an unexpected error
+EXIT_CRASH = 3
+_DEBUG_HELP = "on an unexpected error, print the full traceback (for a bug report)"
+
+
+def _inputs(args: argparse.Namespace) -> str:
+    """The files a run was reading, for messages ("the bundled example" when none was given)."""
+    names: list[str] = []
+    for attr in ("design", "designs", "a", "b", "measured"):
+        value = getattr(args, attr, None)
+        for v in value if isinstance(value, list) else [value]:
+            if isinstance(v, (str, Path)):
+                names.append(f"'{v}'")
+    if not names and hasattr(args, "design"):
+        names.append("the bundled example design")
+    return ", ".join(names)
+
+
+def _crashed(args: argparse.Namespace, exc: Exception) -> int:
+    """Report an unexpected error in two lines (the traceback first with --debug)."""
+    debug = getattr(args, "debug", False)
+    if debug:
+        traceback.print_exc(file=sys.stderr)
+    where = f"'platewright {args.command}'" + (f" on {_inputs(args)}" if _inputs(args) else "")
+    if isinstance(exc, OSError):  # the system's refusal (disk full, no permission): not a bug
+        print(f"platewright: {where} stopped: {exc}; nothing written", file=sys.stderr)
+        return EXIT_CRASH
+    print(f"platewright: internal error in {where}: {type(exc).__name__}: {exc}\n"
+          "  nothing written. This is a bug in platewright: please report it with the design "
+          "file and the command line" + ("" if debug else " (run again with --debug to add the "
+                                             "traceback)"), file=sys.stderr)
+    return EXIT_CRASH
 
 
 def make_parser() -> argparse.ArgumentParser:
@@ -22,10 +60,13 @@ def make_parser() -> argparse.ArgumentParser:
         prog="platewright",
         description="Cut-ready, checked chassis plates from a YAML design file.",
     )
+    parser.add_argument("--debug", action="store_true", help=_DEBUG_HELP)
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     for command in COMMANDS:
         p = sub.add_parser(command.name, help=command.help, description=command.help)
         command.add_arguments(p)
+        # also accepted after the command; SUPPRESS keeps the top-level value when absent
+        p.add_argument("--debug", action="store_true", default=argparse.SUPPRESS, help=_DEBUG_HELP)
         p.set_defaults(_command=command)
     return parser
 
@@ -38,16 +79,20 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return 2
     try:
-        return int(args._command.run(args))
+        with signals_as_exceptions():
+            return int(args._command.run(args))
     except DesignError as exc:
         print("platewright: refused, nothing written:", file=sys.stderr)
         for problem in exc.problems:
             where = f"{exc.source}: " if exc.source else ""
             print(f"  {where}{problem}", file=sys.stderr)
         return 2
-    except KeyboardInterrupt:
-        print("platewright: interrupted, nothing written", file=sys.stderr)
-        return 130
+    except KeyboardInterrupt as exc:  # Ctrl-C, SIGTERM, SIGHUP
+        print("platewright: interrupted; no partial output left (an output folder holds the "
+              "earlier output or the whole new one)", file=sys.stderr)
+        return exit_status(exc)
+    except Exception as exc:
+        return _crashed(args, exc)
 
 
 if __name__ == "__main__":

@@ -15,6 +15,7 @@ import meshio
 import numpy as np
 
 from platewright.fea.results import CaseResult
+from platewright.geometry.writers.atomic import atomic_path
 
 __all__ = ["case_mesh", "write_vtu", "vtu_bytes"]
 
@@ -39,14 +40,8 @@ def case_mesh(result: CaseResult) -> meshio.Mesh:
 def write_vtu(result: CaseResult, path: str | os.PathLike[str]) -> Path:
     """Write ``result`` to ``path`` (.vtu, binary), replacing it only when complete."""
     target = Path(path)
-    fd, tmp = tempfile.mkstemp(suffix=".vtu", dir=target.parent)
-    os.close(fd)
-    try:
+    with atomic_path(target, suffix=".vtu") as tmp:
         meshio.write(tmp, case_mesh(result), file_format="vtu")
-        os.replace(tmp, target)
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
     return target
 
 

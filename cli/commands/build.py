@@ -21,7 +21,7 @@ class BuildCommand(DesignCommand):
         _, design, outdir = self.load(args)
         result = build_design(design)
         self.refuse_on_rule_errors(result)
-        with staged_output(outdir) as tmp:
+        with staged_output(outdir, protect=[f.path for f in design.inputs]) as tmp:
             report = write_build(result, tmp)
         if not args.quiet:
             print(build_summary(report, str(outdir)))

@@ -27,7 +27,7 @@ class CheckCommand(AnalysisCommand):
         from platewright.fea.vtu import write_vtu
 
         done = self.analyse(args)
-        with staged_output(done.outdir) as tmp:
+        with staged_output(done.outdir, protect=[f.path for f in done.design.inputs]) as tmp:
             report = write_build(done.result, tmp, done.analyses)
             if args.vtu:
                 (tmp / "fields").mkdir()

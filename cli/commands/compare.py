@@ -132,7 +132,7 @@ class CompareCommand(Command):
                 overlays[name] = overlay_svg(side_a.svgs[name], None, title=f"{name}: only in A")
         files = {name: f"overlays/{safe_name(name)}.svg" for name in overlays}
         doc["overlays"] = files
-        with staged_output(outdir) as tmp:
+        with staged_output(outdir, index_file="compare.json", protect=[args.a, args.b]) as tmp:
             (tmp / "overlays").mkdir()
             for name, svg in overlays.items():
                 (tmp / files[name]).write_text(svg, encoding="utf-8")

@@ -115,7 +115,8 @@ class CouponCommand(Command):
             Path(args.machine).absolute())
         files = {"dxf": "coupon.dxf", "svg": "coupon.svg", "sheet": "measuring_sheet.html",
                  "measurements": "measurements.yaml"}
-        with staged_output(outdir) as tmp:
+        inputs = [args.machine] if is_profile_path(args.machine) else []
+        with staged_output(outdir, protect=inputs) as tmp:
             write_plate_dxf(coupon.plate, list(coupon.cut), tmp / files["dxf"])
             (tmp / files["svg"]).write_text(svg, encoding="utf-8")
             (tmp / files["sheet"]).write_text(measuring_sheet_html(coupon, svg, profile.name),

@@ -136,7 +136,7 @@ class LightenCommand(AnalysisCommand):
                                  size_mm=args.mesh_size_mm, method=args.solver,
                                  progress=self.progress(args),
                                  analyses=analyses)
-        with staged_output(outdir) as tmp:
+        with staged_output(outdir, protect=[f.path for f in design.inputs]) as tmp:
             report = write_build(result, tmp, analyses)
             self._add_lightening(report, results, analyses, tmp, [b for b in result.plates])
         if not args.quiet:

@@ -27,7 +27,7 @@ from typing import Any
 from platewright.cli.commands.base import Command, DesignCommand
 from platewright.cli.outputs import check_output_target, staged_output
 from platewright.cli.reports.report_html import REPORT_CSS
-from platewright.cli.reports.report_json import SCHEMA_VERSION, tool_version
+from platewright.cli.reports.report_json import SCHEMA_VERSION, input_entries, tool_version
 from platewright.cli.reports.safety import SAFETY_NOTES
 from platewright.cli.terminal import format_table
 from platewright.geometry.design.loader import Design, load_design
@@ -159,6 +159,8 @@ def nest_report(result: NestResult, items: list[NestItem], design_of: list[str],
         "tool": {"name": "platewright", "version": tool_version()},
         "units": {"length": "mm", "area": "mm2", "angle": "deg", "time": "s"},
         "designs": [{"name": d.name, "file": d.source_path, "sha256": d.sha256} for d in designs],
+        "overrides": list(designs[0].overrides) if designs else [],
+        "inputs": list({(e["role"], e["path"]): e for d in designs for e in input_entries(d)}.values()),
         "settings": {"spacing_mm": result.spacing_mm, "margin_mm": result.margin_mm,
                      "rotations": result.rotations},
         "parts": [{"plate": it.label, "design": dn, "quantity": it.quantity,
@@ -252,7 +254,8 @@ class NestCommand(Command):
         costs = _costs(result, machines)
         plates = {it.label: it.plate for it in items}
         report = nest_report(result, items, design_of, designs, source, costs)
-        with staged_output(outdir) as tmp:
+        with staged_output(outdir, index_file="nest.json",
+                           protect=[f.path for d in designs for f in d.inputs]) as tmp:
             (tmp / "sheets").mkdir()
             svgs = []
             for s, entry in zip(result.sheets, report["sheets"]):

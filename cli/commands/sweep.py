@@ -18,8 +18,9 @@ from pathlib import Path
 from typing import Any
 
 from platewright.cli.commands.base import Command
-from platewright.cli.outputs import written_by_us
-from platewright.cli.reports.report_json import tool_version
+from platewright.cli.interrupts import exit_status
+from platewright.cli.outputs import output_folder, written_by_us
+from platewright.cli.reports.report_json import input_entries, tool_version
 from platewright.cli.sweep.engine import (
     lighten_available,
     parse_vary,
@@ -81,10 +82,9 @@ class SweepCommand(Command):
             raise DesignError(Problem("load_cases", "--check given but the design has no load cases"),
                               source=str(args.design))
         jobs = sweep_jobs(design, overrides, specs, check=args.check, lighten=args.lighten)
-        outdir = (args.output if args.output is not None
-                  else Path("platewright-out") / f"sweep-{args.design.stem}").absolute()
-        if outdir.exists() and not outdir.is_dir():
-            raise DesignError(Problem("-o", f"'{outdir}' exists and is not a folder"))
+        # a symbolic link is followed; a link to nothing or a file is refused
+        outdir = output_folder(args.output if args.output is not None
+                               else Path("platewright-out") / f"sweep-{args.design.stem}")
         if outdir.is_dir() and any(outdir.iterdir()) and not is_sweep_folder(outdir):
             raise DesignError(Problem("-o", f"'{outdir}' is not empty and holds no platewright "
                                       "sweep.json, so it is not used",
@@ -98,6 +98,7 @@ class SweepCommand(Command):
             "tool": {"name": "platewright", "version": tool_version()},
             "design": {"name": design.name, "file": str(args.design), "sha256": design.sha256},
             "overrides": overrides,
+            "inputs": input_entries(design),
             "vary": [{"path": s.path, "start": s.start, "stop": s.stop, "step": s.step,
                       "values": list(s.values)} for s in specs],
             "check": args.check, "lighten": args.lighten, "combinations": len(jobs),
@@ -125,10 +126,10 @@ class SweepCommand(Command):
             if created:  # refused before any result (e.g. no scheduler): leave nothing behind
                 shutil.rmtree(outdir, ignore_errors=True)
             raise
-        except KeyboardInterrupt:
+        except KeyboardInterrupt as exc:  # Ctrl-C or SIGTERM
             print(f"platewright: sweep interrupted; finished results are kept in {outdir / 'results'}"
                   "; run the same command again to resume", file=sys.stderr)
-            return 130
+            return exit_status(exc)
         from platewright.cli.sweep.outputs import (  # matplotlib
             render_sweep_html,
             sweep_csv,

@@ -5,10 +5,11 @@ from __future__ import annotations
 from importlib.metadata import PackageNotFoundError, version
 from typing import Any
 
+from platewright.geometry.design.loader import Design
 from platewright.geometry.plate.pipeline import BuildResult, BuiltPlate
 from platewright.geometry.shop.costing import combine_estimates, estimate_plate
 
-__all__ = ["SCHEMA_VERSION", "tool_version", "build_report", "plate_entry"]
+__all__ = ["SCHEMA_VERSION", "tool_version", "build_report", "plate_entry", "input_entries"]
 
 SCHEMA_VERSION = 1
 
@@ -67,6 +68,11 @@ def plate_entry(built: BuiltPlate, files: dict[str, str]) -> dict[str, Any]:
     }
 
 
+def input_entries(design: Design) -> list[dict[str, str]]:
+    """The report's ``inputs``: role, path and sha256 of every file the design was read from."""
+    return [{"role": f.role, "path": f.path, "sha256": f.sha256} for f in design.inputs]
+
+
 def build_report(result: BuildResult, files: dict[str, dict[str, str]]) -> dict[str, Any]:
     """The whole report.json document for a build; ``files[plate name]`` as in ``plate_entry``."""
     d, t = result.design, result.total
@@ -80,6 +86,10 @@ def build_report(result: BuildResult, files: dict[str, dict[str, str]]) -> dict[
         "schema_version": SCHEMA_VERSION,
         "tool": {"name": "platewright", "version": tool_version()},
         "design": {"name": d.name, "file": str(d.source_path), "sha256": d.sha256},
+        # what a rerun needs besides the tool version: every --set (and --machine) given, and
+        # every file read with the sha256 of its bytes
+        "overrides": list(d.overrides),
+        "inputs": input_entries(d),
         "units": {"length": "mm", "mass": "g", "force": "N", "stress": "MPa", "time": "s"},
         "machine": {"key": d.machine.key, "name": d.machine.name,
                     "bed_mm": None if d.machine.bed_mm is None else [_r(v) for v in d.machine.bed_mm]},

@@ -18,7 +18,6 @@ import json
 import math
 import os
 import signal
-import tempfile
 from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
@@ -31,6 +30,7 @@ from platewright.geometry.design.loader import Design, load_design
 from platewright.geometry.design.overrides import split_path
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.plate.pipeline import build_design
+from platewright.geometry.writers.atomic import write_atomic
 
 __all__ = [
     "MAX_COMBINATIONS",
@@ -272,20 +272,6 @@ def run_job(job: SweepJob) -> dict[str, Any]:
     return row
 
 
-def write_atomic(path: Path, data: str | bytes) -> None:
-    """Write ``data`` (text as UTF-8, or bytes) to ``path`` through a temporary file in the same
-    folder, so the file is never seen half-written."""
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".partial", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data.encode("utf-8") if isinstance(data, str) else data)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-
-
 def _read_done(results_dir: Path, jobs: Sequence[SweepJob]) -> dict[str, dict[str, Any]]:
     done = {}
     for job in jobs:
@@ -303,8 +289,9 @@ OnResult = Callable[[dict[str, Any], int, int], None]
 
 
 def _quiet_interrupt() -> None:
-    """Pool workers stop at once and silently on Ctrl-C; the parent reports the interruption."""
-    signal.signal(signal.SIGINT, lambda signum, frame: os._exit(130))
+    """Pool workers stop at once and silently on Ctrl-C or SIGTERM; the parent reports it."""
+    for signum in (signal.SIGINT, signal.SIGTERM):
+        signal.signal(signum, lambda n, frame: os._exit(128 + n))
 
 
 def _iter_local(todo: Sequence[SweepJob], workers: int) -> Iterator[dict[str, Any]]:

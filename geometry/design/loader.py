@@ -23,11 +23,12 @@ from platewright.geometry.design.yamlsource import LineMap, format_path, parse_y
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.model import Material
 from platewright.geometry.shop import machines
-from platewright.geometry.shop.machine_files import is_profile_path, resolve_machine
+from platewright.geometry.shop.machine_files import is_profile_path, resolve_machine_source
 from platewright.geometry.shop.machines import MachineProfile
 
 __all__ = [
     "Design",
+    "InputFile",
     "PlateSpec",
     "OutlineSpec",
     "FeatureSpec",
@@ -93,6 +94,16 @@ class PlateSpec:
 
 
 @dataclass(frozen=True)
+class InputFile:
+    """A file a design was read from: ``role`` (``design`` or ``machine_profile``), ``path`` as
+    it was opened (relative to the working folder, or absolute) and ``sha256`` of its bytes."""
+
+    role: str
+    path: str
+    sha256: str
+
+
+@dataclass(frozen=True)
 class Design:
     """A validated, immutable design.
 
@@ -102,7 +113,8 @@ class Design:
     ``reference_depends`` name -> every reference it uses; ``load_cases`` and ``components``
     the raw entries of those sections; ``vehicle_mass_g`` the mass for collision cases (g) or
     None; ``warnings`` material cautions for the materials in use;
-    ``overrides`` the ``--set`` texts applied.
+    ``overrides`` the ``--set`` texts applied; ``inputs`` every file read (the design file,
+    a machine profile file), so the build can be reproduced.
     """
 
     name: str
@@ -120,6 +132,7 @@ class Design:
     reference_depends: dict[str, frozenset[str]] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
     overrides: tuple[str, ...] = ()
+    inputs: tuple[InputFile, ...] = ()
     lines: LineMap = field(default_factory=LineMap, repr=False, compare=False)
 
     def line_of(self, path: str) -> int | None:
@@ -143,6 +156,7 @@ class _Resolver:
         self.base_dir = base_dir
         self.problems: list[Problem] = []
         self.warnings: list[str] = []
+        self.files: list[InputFile] = []
         self._materials: dict[str, Material] | None = None
 
     def fail(self, path: str, message: str, hint: str = "") -> None:
@@ -171,10 +185,14 @@ class _Resolver:
             # a profile file: relative to the design file, or to the working folder for --set
             base = None if self.lines.is_overridden(path) else self.base_dir
             try:
-                return resolve_machine(value, base, path, self.lines.line_of(path))
+                profile, file, digest = resolve_machine_source(value, base, path,
+                                                               self.lines.line_of(path))
             except DesignError as exc:
                 self.problems.extend(exc.problems)
                 return None
+            if file is not None and digest is not None:
+                self.files.append(InputFile("machine_profile", str(file), digest))
+            return profile
         try:
             if isinstance(value, Mapping):
                 return machines.machine_from_mapping({k: v for k, v in value.items()
@@ -254,7 +272,8 @@ def _design(tree: Any, lines: LineMap, source_path: str, sha256: str,
         load_cases=tuple(top["load_cases"]), components=tuple(top["components"]),
         vehicle_mass_g=top.get("vehicle_mass_g"),
         reference_depends=dict(val.depends), warnings=tuple(res.warnings),
-        overrides=tuple(overrides), lines=lines)
+        overrides=tuple(overrides),
+        inputs=(InputFile("design", source_path, sha256), *res.files), lines=lines)
 
 
 def load_design_text(text: str, name: str = "<text>", overrides: Sequence[str] = ()) -> Design:

@@ -7,8 +7,8 @@ Units: lengths mm, speeds mm/s, times s, rates and prices in the profile's ``cur
 
 from __future__ import annotations
 
+import hashlib
 import os
-import tempfile
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
@@ -25,16 +25,19 @@ from platewright.geometry.shop.machines import (
     load_machines,
     machine_from_mapping,
 )
+from platewright.geometry.writers.atomic import write_atomic
 
 __all__ = [
     "PROFILE_FIELDS_DOC",
     "describe_machine_profile",
     "is_profile_path",
     "load_profile_file",
+    "read_profile_file",
     "read_profile_text",
     "profile_to_mapping",
     "save_profile",
     "resolve_machine",
+    "resolve_machine_source",
     "set_measured",
 ]
 
@@ -99,18 +102,26 @@ def read_profile_text(text: str, source: str, key: str) -> MachineProfile:
                           source) from None
 
 
+def read_profile_file(path: str | Path, key: str | None = None) -> tuple[MachineProfile, str]:
+    """The profile in the file at ``path`` (key: ``key`` or the file stem) and the sha256 (hex)
+    of the file's bytes. DesignError for a missing or unreadable file, bad YAML, or a bad field
+    (path + line)."""
+    p = Path(path)
+    try:
+        raw = p.read_bytes()
+        text = raw.decode("utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
+        why = getattr(exc, "strerror", None) or str(exc)
+        raise DesignError(Problem("", f"cannot read the machine profile: {why}"), str(p)) from exc
+    return read_profile_text(text, str(p), key or p.stem), hashlib.sha256(raw).hexdigest()
+
+
 def load_profile_file(path: str | Path, key: str | None = None) -> MachineProfile:
     """The profile in the file at ``path`` (key: ``key`` or the file stem).
 
     DesignError for a missing or unreadable file, bad YAML, or a bad field (path + line).
     """
-    p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
-        why = getattr(exc, "strerror", None) or str(exc)
-        raise DesignError(Problem("", f"cannot read the machine profile: {why}"), str(p)) from exc
-    return read_profile_text(text, str(p), key or p.stem)
+    return read_profile_file(path, key)[0]
 
 
 def _rows(table: Mapping[str, tuple], value_key: str) -> dict[str, list[dict[str, Any]]]:
@@ -171,17 +182,7 @@ def save_profile(profile: MachineProfile, path: str | Path) -> None:
                                     default_flow_style=None, allow_unicode=True, width=100)
     machine_from_mapping(yaml.safe_load(text), key=profile.key)  # never write what cannot load
     p.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".partial", dir=p.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, p)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    write_atomic(p, text, sync=True)  # keeps the permission bits of the file it replaces
 
 
 def set_measured(profile: MachineProfile, material_key: str, thickness_mm: float,
@@ -219,10 +220,13 @@ def set_measured(profile: MachineProfile, material_key: str, thickness_mm: float
     return machine_from_mapping(d, key=profile.key), changes
 
 
-def resolve_machine(value: str, base_dir: str | Path | None = None,
-                    field: str = "--machine", line: int | None = None) -> MachineProfile:
+def resolve_machine_source(value: str, base_dir: str | Path | None = None,
+                           field: str = "--machine", line: int | None = None
+                           ) -> tuple[MachineProfile, Path | None, str | None]:
     """A bundled profile key or a profile file path (relative paths from ``base_dir``, default
-    the working folder). DesignError naming ``field`` for an unknown key or a bad file."""
+    the working folder): the profile, and for a file its path and the sha256 of its bytes
+    (None, None for a bundled key). DesignError naming ``field`` for an unknown key or a bad
+    file."""
     if is_profile_path(value):
         p = Path(value)
         if not p.is_absolute() and base_dir is not None:
@@ -230,12 +234,18 @@ def resolve_machine(value: str, base_dir: str | Path | None = None,
         if not p.exists():
             raise DesignError(Problem(field, f"no machine profile file '{p}'", line,
                                       "give a bundled key (`platewright machines`) or a file"))
-        return load_profile_file(p)
+        profile, digest = read_profile_file(p)
+        return profile, p, digest
     try:
-        return get_machine(value)
+        return get_machine(value), None, None
     except KeyError:
         raise DesignError(Problem(field, f"unknown machine profile '{value}'", line,
                                   suggest(value, sorted(load_machines()))
                                   + "; or give a profile file PATH.yaml")) from None
 
 
+def resolve_machine(value: str, base_dir: str | Path | None = None,
+                    field: str = "--machine", line: int | None = None) -> MachineProfile:
+    """A bundled profile key or a profile file path (relative paths from ``base_dir``, default
+    the working folder). DesignError naming ``field`` for an unknown key or a bad file."""
+    return resolve_machine_source(value, base_dir, field, line)[0]
