@@ -229,12 +229,12 @@ def _run_case(plate: Plate, case: LoadCase, meshes: _PlateMeshes, size_mm: float
     h = float(size_mm or case.mesh_size_mm or _default_size_mm(plate))
     area = mass_properties(plate).area_mm2
     verts, dofs, need = estimate_memory_bytes(area, h, case.family)
-    # the option --mesh-size-mm, when given, is what set the size
-    size_path = "--mesh-size-mm" if size_mm else f"{case.path}.mesh_size_mm"
+    size_path = f"{case.path}.mesh_size_mm"
     x0, y0, x1, y1 = plate.outline.contours[0].bbox()
     across = math.hypot(x1 - x0, y1 - y0)
-    if h > across:
-        raise DesignError(Problem(size_path, f"load case '{case.name}': an element size of "
+    if h > across:  # size_mm comes from the option --mesh-size-mm
+        raise DesignError(Problem("--mesh-size-mm" if size_mm else size_path,
+                                  f"load case '{case.name}': an element size of "
                                   f"{h:g} mm is larger than plate '{plate.name}' ({across:.4g} mm "
                                   "across its bounding box)",
                                   line_of(size_path) if line_of and not size_mm else None,
