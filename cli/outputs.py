@@ -15,10 +15,14 @@ The commit, under a lock on OUTDIR so two writers never interleave:
 
 A staging folder left by a killed run is removed by the next run into the same OUTDIR. A symbolic
 link as OUTDIR is followed. New folders and files get the user's umask.
+
+A folder that cannot be written (no permission, a file in the path, a read-only or virtual file
+system) is a refusal naming ``-o``, not a crash; a full disk ends the run with exit 3.
 """
 
 from __future__ import annotations
 
+import errno
 import json
 import os
 import re
@@ -44,7 +48,7 @@ from platewright.cli.manifest import (
 from platewright.geometry.errors import DesignError, Problem
 
 __all__ = ["staged_output", "check_output_target", "output_folder", "remove_stale_staging",
-           "written_by_us"]
+           "cannot_write", "written_by_us"]
 
 
 def _refuse(message: str, hint: str = "") -> DesignError:
@@ -65,8 +69,36 @@ def output_folder(outdir: Path) -> Path:
     return path
 
 
+#: errno values that mean "this place cannot be written": a refusal naming ``-o`` (exit 2). A full
+#: disk or quota is not a wrong choice of folder: it ends the run with exit 3 (the system's
+#: message, no bug report).
+_CANNOT_WRITE = {errno.EACCES, errno.EPERM, errno.EROFS, errno.ENOTDIR, errno.EEXIST, errno.ENOENT,
+                 errno.ENAMETOOLONG, errno.EINVAL, errno.EXDEV, errno.ELOOP}
+
+
+def cannot_write(outdir: Path, exc: OSError) -> DesignError:
+    """The refusal for an output folder the operating system will not let us write."""
+    why = exc.strerror or str(exc)
+    where = f" ({exc.filename})" if exc.filename and str(exc.filename) != str(outdir) else ""
+    return DesignError(Problem("-o", f"cannot write the output folder '{outdir}': {why}{where}",
+                               hint="choose a folder you can write to"))
+
+
 def check_output_target(outdir: Path) -> None:
-    """Refuse an output folder that holds files but no platewright output."""
+    """Refuse an output folder that holds files but no platewright output, or one that cannot
+    be written (a file in its path)."""
+    try:
+        _check_target(outdir)
+    except OSError as exc:
+        raise cannot_write(outdir, exc) from exc
+
+
+def _check_target(outdir: Path) -> None:
+    for parent in Path(outdir).absolute().parents:  # a file where a folder of the path should be
+        if parent.exists() or parent.is_symlink():
+            if not parent.is_dir():
+                raise NotADirectoryError(errno.ENOTDIR, "a file is in the way", str(parent))
+            break
     path = output_folder(outdir)
     if path.is_dir() and any(path.iterdir()) and not owned_files(path, "").any:
         raise _refuse(f"'{path}' is not empty and holds no platewright output (report.json), so it "
@@ -231,15 +263,24 @@ def staged_output(outdir: Path, *, index_file: str = "report.json",
     DesignError (nothing written) when a file would have to be overwritten that is not ours."""
     target = output_folder(outdir)
     check_output_target(target)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    remove_stale_staging(target)
-    staging, handle = _new_staging(target)
     try:
-        yield staging
-        written = _record_manifest(staging, index_file)
-        target.mkdir(parents=True, exist_ok=True)
-        with folder_locked(target), signals_deferred():  # Ctrl-C still works while waiting
-            _commit(staging, target, index_file, written, [Path(p).absolute() for p in protect])
+        target.parent.mkdir(parents=True, exist_ok=True)
+        remove_stale_staging(target)
+        staging, handle = _new_staging(target)
+    except OSError as exc:
+        raise cannot_write(target, exc) from exc
+    try:
+        try:
+            yield staging
+            written = _record_manifest(staging, index_file)
+            target.mkdir(parents=True, exist_ok=True)
+            with folder_locked(target), signals_deferred():  # Ctrl-C still works while waiting
+                _commit(staging, target, index_file, written,
+                        [Path(p).absolute() for p in protect])
+        except OSError as exc:
+            if exc.errno in _CANNOT_WRITE:
+                raise cannot_write(target, exc) from exc
+            raise
     finally:
         shutil.rmtree(staging, ignore_errors=True)
         unlock(handle)

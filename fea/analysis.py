@@ -230,6 +230,16 @@ def _run_case(plate: Plate, case: LoadCase, meshes: _PlateMeshes, size_mm: float
     area = mass_properties(plate).area_mm2
     verts, dofs, need = estimate_memory_bytes(area, h, case.family)
     size_path = f"{case.path}.mesh_size_mm"
+    x0, y0, x1, y1 = plate.outline.contours[0].bbox()
+    across = math.hypot(x1 - x0, y1 - y0)
+    if h > across:  # size_mm comes from the option --mesh-size-mm
+        raise DesignError(Problem("--mesh-size-mm" if size_mm else size_path,
+                                  f"load case '{case.name}': an element size of "
+                                  f"{h:g} mm is larger than plate '{plate.name}' ({across:.4g} mm "
+                                  "across its bounding box)",
+                                  line_of(size_path) if line_of and not size_mm else None,
+                                  f"use at most {across:.4g} mm (default: "
+                                  f"{_default_size_mm(plate):.3g} mm)"))
     if need > memory_limit_bytes:
         smallest = h * math.sqrt(need / memory_limit_bytes)
         raise DesignError(Problem(size_path, f"load case '{case.name}': a mesh of {h:g} mm would "

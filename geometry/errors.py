@@ -15,12 +15,15 @@ class Problem:
     line: 1-based line in the design file, or None when unknown (e.g. a ``--set`` value).
     message: what is wrong.
     hint: what would be valid (may be empty), e.g. ``did you mean 'thickness_mm'?``.
+    source: the file the path and line belong to when it is not the file the error is about
+    (e.g. a machine profile file named by a design); empty for that file.
     """
 
     path: str
     message: str
     line: int | None = None
     hint: str = ""
+    source: str = ""
 
     def __str__(self) -> str:
         where = self.path or "<design>"
@@ -40,7 +43,11 @@ class DesignError(Exception):
         self.source = source
         super().__init__(self.render())
 
+    def where(self, problem: Problem) -> str:
+        """The file a problem belongs to: its own ``source``, else the error's; may be empty."""
+        return problem.source or self.source
+
     def render(self) -> str:
-        """All problems, one per line, prefixed by the source file when known."""
-        head = f"{self.source}: " if self.source else ""
-        return "\n".join(head + str(p) for p in self.problems)
+        """All problems, one per line, prefixed by the file each belongs to when known."""
+        return "\n".join((f"{self.where(p)}: " if self.where(p) else "") + str(p)
+                         for p in self.problems)

@@ -91,7 +91,11 @@ class Engraving:
 
 @dataclass(frozen=True)
 class Plate:
-    """One plate: outline feature + inner features, material, thickness (mm) and kerf (mm)."""
+    """One plate: outline feature + inner features, material, thickness (mm) and kerf (mm).
+
+    ``kerf_source``: where the kerf came from (text for the report, e.g. ``plate kerf_mm`` or
+    ``machine profile 'x': cast_acrylic 3 mm entry``; starts with ``interpolated`` when it was
+    interpolated between two profile entries); empty when not known."""
 
     name: str
     material: Material
@@ -103,6 +107,7 @@ class Plate:
     part_number: str = ""
     quantity: int = 1
     source_path: str = ""
+    kerf_source: str = ""
 
     def feature(self, feature_id: str) -> Feature:
         """The feature (or the outline) with this id; KeyError if absent."""

@@ -263,7 +263,9 @@ def test_kerf_for_order_of_precedence() -> None:
     })
     assert kerf_for(m, "cast_acrylic", 6.0) == pytest.approx(0.26)
     assert kerf_for(m, "cast_acrylic", 3.0) == pytest.approx(0.17)
-    assert kerf_for(m, "cast_acrylic", 5.0) == pytest.approx(0.31)  # profile default
+    # between two entries: linear interpolation (issue 9 item 11; was the profile default)
+    assert kerf_for(m, "cast_acrylic", 5.0) == pytest.approx(0.17 + (0.26 - 0.17) * 2.0 / 3.0)
+    assert kerf_for(m, "hdpe", 5.0) == pytest.approx(0.31)           # profile default
     assert kerf_for(m, "mdf", 9.0) == pytest.approx(0.22)            # any-thickness entry
     bare = machine_from_mapping({})
     assert kerf_for(bare, "mdf", 3.0) == get_material("mdf").typical_kerf_mm

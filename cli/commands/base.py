@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import argparse
 import dataclasses
+import math
 import sys
 from collections.abc import Callable
 from pathlib import Path
@@ -73,10 +74,25 @@ class DesignCommand(Command):
 
     @staticmethod
     def refuse_on_rule_errors(result: BuildResult) -> None:
-        """Manufacturability errors stop the build (exit 2) with a readable list."""
-        problems = [Problem(f"plates.{name}", f"{f.rule}: {f.message}",
-                            hint="features: " + ", ".join(f.features) if f.features else "")
-                    for name, f in result.errors]
+        """Manufacturability errors stop the build (exit 2) with a readable list; each problem
+        is on the first feature the finding names (its path and line; the outline for the
+        bed size), else on the plate."""
+        problems = []
+        for built in result.plates:
+            plate = built.plate
+            by_id = {f.id: f for f in (plate.outline, *plate.features)}
+            for f in built.findings:
+                if f.level != "error":
+                    continue
+                named = [by_id[i] for i in f.features if i in by_id]
+                inner = [g for g in named if g is not plate.outline]
+                at = (inner or named or [None])[0]
+                path = at.source_path if at is not None and at.source_path else plate.source_path
+                line = (at.source_line if at is not None and at.source_path
+                        else result.design.line_of(plate.source_path))
+                hint = f"plate '{plate.name}'" + (", features: " + ", ".join(f.features)
+                                                  if f.features else "")
+                problems.append(Problem(path, f"{f.rule}: {f.message}", line, hint))
         if problems:
             raise DesignError(problems, source=str(result.design.source_path))
 
@@ -121,9 +137,10 @@ class AnalysisCommand(DesignCommand):
         from platewright.fea.analysis import analyse_design
         from platewright.fea.loadcases.parse import parse_loads
 
+        if args.mesh_size_mm is not None and not 0 < args.mesh_size_mm < math.inf:
+            raise DesignError(Problem("--mesh-size-mm", f"must be a number > 0, got "
+                                      f"{args.mesh_size_mm}"))
         _, design, outdir = self.load(args)
-        if args.mesh_size_mm is not None and not args.mesh_size_mm > 0:
-            raise DesignError(Problem("--mesh-size-mm", f"must be > 0, got {args.mesh_size_mm}"))
         result = build_design(design)
         self.refuse_on_rule_errors(result)
         plates = [b.plate for b in result.plates]

@@ -32,7 +32,7 @@ from platewright.geometry.shop.machine_files import (
     save_profile,
     set_measured,
 )
-from platewright.geometry.shop.machines import ProfileFieldError, kerf_for
+from platewright.geometry.shop.machines import KerfRangeError, ProfileFieldError, kerf_for
 from platewright.geometry.writers.dxf import write_plate_dxf
 from platewright.geometry.writers.svg import plate_svg_string
 
@@ -94,8 +94,12 @@ class CouponCommand(Command):
             raise DesignError(Problem("--material", f"material '{mat.key}' ({mat.name}) must never "
                                       f"be laser-cut: {mat.refusal_reason}", hint="choose another"))
         profile = resolve_machine(args.machine, None, "--machine")
-        kerf = args.kerf_mm if args.kerf_mm is not None else kerf_for(profile, mat.key,
-                                                                       args.thickness_mm)
+        try:
+            kerf = args.kerf_mm if args.kerf_mm is not None else kerf_for(profile, mat.key,
+                                                                           args.thickness_mm)
+        except KerfRangeError as exc:
+            raise DesignError(Problem("--thickness-mm", str(exc), hint="give --kerf-mm (your "
+                                      "best guess: the coupon measures the real kerf)")) from None
         try:
             coupon = build_coupon(mat, args.thickness_mm, args.bore_mm, kerf, span_mm=args.span_mm,
                                   step_mm=args.step_mm, square_mm=args.square_mm)

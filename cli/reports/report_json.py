@@ -49,6 +49,7 @@ def plate_entry(built: BuiltPlate, files: dict[str, str]) -> dict[str, Any]:
         "material": p.material.key,
         "thickness_mm": _r(p.thickness_mm),
         "kerf_mm": _r(p.kerf_mm),
+        "kerf_source": p.kerf_source,
         "area_mm2": _r(m.area_mm2),
         "mass_g": _r(m.mass_g),
         "centroid_mm": [_r(m.centroid_mm[0]), _r(m.centroid_mm[1])],

@@ -178,14 +178,20 @@ def evaluate(
     if not text:
         raise ExpressionError("empty expression")
     if len(text) > MAX_EXPRESSION_CHARS:
-        raise ExpressionError(f"expression longer than {MAX_EXPRESSION_CHARS} characters")
+        raise ExpressionError(f"expression of {len(text)} characters; at most "
+                              f"{MAX_EXPRESSION_CHARS} characters are allowed",
+                              "split it into several references")
     try:
         tree = ast.parse(text, mode="eval")
     except SyntaxError as exc:
         raise ExpressionError(f"cannot read expression '{text}': {exc.msg}") from exc
+    except (RecursionError, MemoryError, ValueError) as exc:  # nesting, huge literals
+        raise ExpressionError("expression too deeply nested or too large to read") from exc
     ev = _Evaluator(names, list(names) if known is None else list(known))
     try:
         value = ev.run(tree.body)
+    except RecursionError as exc:
+        raise ExpressionError("expression too deeply nested") from exc
     except OverflowError as exc:
         raise ExpressionError(f"'{text}' is too large") from exc
     except ZeroDivisionError as exc:  # e.g. 0 ** -1
@@ -196,11 +202,12 @@ def evaluate(
 
 
 def _names_in(expr: Any) -> set[str]:
-    if not isinstance(expr, str):
+    """Names an expression uses; empty for what :func:`evaluate` will refuse (too long, bad)."""
+    if not isinstance(expr, str) or len(expr.strip()) > MAX_EXPRESSION_CHARS:
         return set()
     try:
         tree = ast.parse(expr.strip(), mode="eval")
-    except SyntaxError:
+    except (SyntaxError, RecursionError, MemoryError, ValueError):
         return set()
     return {n.id for n in ast.walk(tree) if isinstance(n, ast.Name)}
 

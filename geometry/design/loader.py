@@ -18,8 +18,20 @@ from typing import Any
 
 from platewright.geometry import library
 from platewright.geometry.design.overrides import apply_overrides
-from platewright.geometry.design.schema import DEFAULT_LABEL_HEIGHT_MM, suggest, validate_design
-from platewright.geometry.design.yamlsource import LineMap, format_path, parse_yaml
+from platewright.geometry.design.schema import (
+    DEFAULT_LABEL_HEIGHT_MM,
+    MAX_HOLES_PER_DESIGN,
+    MAX_HOLES_PER_PLATE,
+    suggest,
+    validate_design,
+)
+from platewright.geometry.design.yamlsource import (
+    MAX_FILE_BYTES,
+    LineMap,
+    format_path,
+    parse_yaml,
+    read_input_file,
+)
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.model import Material
 from platewright.geometry.shop import machines
@@ -35,7 +47,12 @@ __all__ = [
     "LabelSpec",
     "load_design",
     "load_design_text",
+    "MAX_DESIGN_BYTES",
+    "hole_count",
 ]
+
+#: Largest design file read, bytes.
+MAX_DESIGN_BYTES = MAX_FILE_BYTES
 
 
 @dataclass(frozen=True)
@@ -253,6 +270,44 @@ def _plate(d: dict, i: int, top: dict, top_material: Material | None, res: _Reso
         line=res.lines.line_of(path))
 
 
+def hole_count(spec: PlateSpec) -> int:
+    """How many inner contours the plate's features cut: a fastener_array counts rows x cols,
+    a mount its holes plus the pilot (a strap mount two slots), every other feature one."""
+    motors = None
+    n = 0
+    for f in spec.features:
+        p = f.params
+        if f.type == "fastener_array":
+            n += p["rows"] * p["cols"]
+        elif f.type == "custom_mount":
+            n += len(p["holes"]) + (p["pilot_diameter_mm"] is not None)
+        elif f.type == "motor_mount":
+            motors = library.load_motors() if motors is None else motors
+            m = motors.get(p["motor"])
+            if m is None:  # unknown motor: refused when the plate is built
+                n += 1
+            else:
+                n += 2 if p["strap"] else len(m.holes) + (m.pilot_diameter_mm is not None)
+        else:
+            n += 1
+    return n
+
+
+def _check_counts(plates: Sequence[PlateSpec], res: _Resolver) -> None:
+    """Refuse plates and designs with more holes than MAX_HOLES_PER_PLATE / _PER_DESIGN."""
+    total = 0
+    for spec in plates:
+        n = hole_count(spec)
+        total += n
+        if n > MAX_HOLES_PER_PLATE:
+            res.fail(f"{spec.path}.features", f"plate '{spec.name}' would cut {n:,} holes",
+                     f"at most {MAX_HOLES_PER_PLATE:,} per plate (a fastener_array counts rows x "
+                     "cols, a mount its holes)")
+    if total > MAX_HOLES_PER_DESIGN:
+        res.fail("plates", f"the design would cut {total:,} holes",
+                 f"at most {MAX_HOLES_PER_DESIGN:,} in all plates together")
+
+
 def _design(tree: Any, lines: LineMap, source_path: str, sha256: str,
             overrides: Sequence[str], base_dir: Path | None = None) -> Design:
     val = validate_design(tree, lines)
@@ -263,6 +318,7 @@ def _design(tree: Any, lines: LineMap, source_path: str, sha256: str,
     top_material = res.material(top["material"], "material")
     machine = res.machine(top["machine"], "machine")
     plates = [_plate(p, i, top, top_material, res, val) for i, p in enumerate(top["plates"])]
+    _check_counts([p for p in plates if p is not None], res)
     if res.problems or machine is None:
         raise DesignError(res.problems, source_path)
     return Design(
@@ -291,14 +347,11 @@ def load_design(path: str | Path, overrides: Sequence[str] = ()) -> Design:
     """Load and validate the design file at ``path``, applying ``--set`` overrides first.
 
     ``Design.sha256`` is the hash of the file's bytes. Raises DesignError (a missing or
-    unreadable file, not UTF-8, bad YAML, bad fields, refused material, ...).
+    unreadable file, not a regular file or larger than MAX_DESIGN_BYTES, not UTF-8, bad YAML,
+    bad fields, refused material, ...).
     """
     p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except OSError as exc:
-        raise DesignError(Problem("", f"cannot read the design file: {exc.strerror}"),
-                          str(p)) from exc
+    raw = read_input_file(p, "design file")
     try:
         text = raw.decode("utf-8")
     except UnicodeDecodeError as exc:

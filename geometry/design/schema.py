@@ -19,7 +19,11 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
-from platewright.geometry.design.expressions import ExpressionError, resolve_references
+from platewright.geometry.design.expressions import (
+    MAX_EXPRESSION_CHARS,
+    ExpressionError,
+    resolve_references,
+)
 from platewright.geometry.design.spec import BAD, Context, Spec, suggest, unit_of
 from platewright.geometry.design.spec_records import (
     AnyOf,
@@ -33,6 +37,8 @@ from platewright.geometry.design.spec_records import (
     markdown_table,
 )
 from platewright.geometry.design.spec_values import (
+    MAX_LIST_ITEMS,
+    MAX_NAME_CHARS,
     Flag,
     Integer,
     Number,
@@ -42,7 +48,7 @@ from platewright.geometry.design.spec_values import (
     PointList,
     Text,
 )
-from platewright.geometry.design.yamlsource import LineMap, format_path
+from platewright.geometry.design.yamlsource import MAX_DEPTH, MAX_FILE_BYTES, LineMap, format_path
 from platewright.geometry.errors import Problem
 
 __all__ = [
@@ -55,8 +61,28 @@ __all__ = [
 
 
 FIT_CLASSES = ("press", "transition", "slide", "clearance")
-_SIZE = Number(gt=0.0, le=5000.0)
+#: Smallest size or corner radius (mm) other than 0: below it a contour degenerates in floating
+#: point (a radius of 1e-308 mm divides by zero) and no machine could make it anyway.
+MIN_SIZE_MM = 0.001
+#: Limits on counts, refused before any geometry is built (a design that needs more is not a
+#: chassis plate: split it). Holes count every contour a feature cuts: a fastener_array
+#: counts rows x cols, a mount its holes and pilot.
+MAX_PLATES = 100
+MAX_FEATURES_PER_PLATE = 1000
+MAX_HOLES_PER_PLATE = 1000
+MAX_HOLES_PER_DESIGN = 5000
+MAX_QUANTITY = 1000
+MAX_ARRAY_SIDE = 1000
+MAX_MOUNT_HOLES = 100
+MAX_LOAD_CASES = 100
+MAX_COMPONENTS = 1000
+MAX_LABEL_CHARS = 200
+#: File names that Windows reserves whatever the extension (compared ignoring case).
+RESERVED_NAMES = frozenset({"con", "prn", "aux", "nul", *(f"com{i}" for i in range(1, 10)),
+                            *(f"lpt{i}" for i in range(1, 10))})
+_SIZE = Number(gt=0.0, le=5000.0, tiny=MIN_SIZE_MM)
 _MM = Number(ge=-5000.0, le=5000.0)
+_RADIUS_MM = Number(ge=0.0, le=5000.0, tiny=MIN_SIZE_MM)
 _ANGLE = Number(ge=-360.0, le=360.0)
 _AT = Field(Point(_MM), "position of the centre [x, y] in plate coordinates", required=True,
             position=True)
@@ -106,14 +132,15 @@ FEATURE_TYPES: dict[str, Record] = {
     "cutout": _feature("cutout", "rectangular cut-out (cable pass-through)",
                        width_mm=Field(_SIZE, "size along x before rotation", required=True),
                        height_mm=Field(_SIZE, "size along y before rotation", required=True),
-                       corner_radius_mm=Field(Number(ge=0.0), "corner radius", default=0.0),
+                       corner_radius_mm=Field(_RADIUS_MM, "corner radius", default=0.0),
                        angle_deg=Field(_ANGLE, "rotation from +x", default=0.0)),
     "fastener": _feature("fastener", "clearance hole for a screw", screw=_SCREW, series=_SERIES),
     "fastener_array": _feature("fastener_array",
         "rows x cols clearance holes (stand-offs)", screw=_SCREW, series=_SERIES,
-        rows=Field(Integer(1), "number of rows (along y)", required=True),
-        cols=Field(Integer(1), "number of columns (along x)", required=True),
-        pitch_mm=Field(Point(Number(ge=0.0)), "hole pitch [along x, along y]", required=True),
+        rows=Field(Integer(1, MAX_ARRAY_SIDE), "number of rows (along y)", required=True),
+        cols=Field(Integer(1, MAX_ARRAY_SIDE), "number of columns (along x)", required=True),
+        pitch_mm=Field(Point(Number(ge=0.0, le=5000.0, tiny=MIN_SIZE_MM)),
+                       "hole pitch [along x, along y]", required=True),
         angle_deg=Field(_ANGLE, "rotation of the pattern from +x", default=0.0),
         centered=Field(Flag(), "true: at_mm is the pattern centre; false: the first hole",
                        default=True)),
@@ -124,12 +151,13 @@ FEATURE_TYPES: dict[str, Record] = {
         strap=Field(Flag(), "also cut clamp-strap slots (round gearmotors)", default=False)),
     "custom_mount": _feature("custom_mount",
         "your own mounting pattern",
-        holes=Field(ListOf(_HOLE_SPEC, min_len=1), "the holes", required=True),
+        holes=Field(ListOf(_HOLE_SPEC, min_len=1, max_len=MAX_MOUNT_HOLES), "the holes",
+                    required=True),
         pilot_diameter_mm=Field(_SIZE, "optional centre clearance hole diameter"),
         angle_deg=Field(_ANGLE, "rotation of the pattern from +x", default=0.0)),
 }
 
-_RADIUS = Field(Number(ge=0.0), "corner radius", default=0.0)
+_RADIUS = Field(_RADIUS_MM, "corner radius", default=0.0)
 OUTLINE = Choice({
     "rounded_rect": Record("rounded rectangle", {
         "at_mm": Field(Point(_MM), "centre [x, y]", default=[0.0, 0.0], position=True),
@@ -140,12 +168,12 @@ OUTLINE = Choice({
     "polygon": Record("polygon with filleted corners", {
         "points_mm": Field(PointList(3), "corners in order [[x, y], ...]", required=True,
                            position=True),
-        "corner_radii_mm": Field(NumberOrList(Number(ge=0.0)),
+        "corner_radii_mm": Field(NumberOrList(_RADIUS_MM),
                                  "one radius for all corners, or one per corner", default=0.0)}),
     "around": Record("rectangle around given coordinates", {
         "x_mm": Field(NumberList(_MM), "x coordinates to enclose", required=True, position=True),
         "y_mm": Field(NumberList(_MM), "y coordinates to enclose", required=True, position=True),
-        "margin_mm": Field(Number(ge=0.0), "material beyond the outermost coordinates",
+        "margin_mm": Field(Number(ge=0.0, le=5000.0), "material beyond the outermost coordinates",
                            required=True),
         "corner_radius_mm": _RADIUS}),
 })
@@ -157,21 +185,32 @@ LABEL = AnyOf(Flag(), Record("engraved label", {
     "height_mm": Field(Number(gt=0.0, le=100.0), "text height",
                        default=DEFAULT_LABEL_HEIGHT_MM),
     "rotation_deg": Field(_ANGLE, "text rotation", default=0.0),
-    "text": Field(Text(), "text (default: name, part number, material, kerf)"),
+    "text": Field(Text(max_len=MAX_LABEL_CHARS), "text (default: name, part number, material, "
+                  "kerf)"),
 }))
 
+def _check_plate_name(d: dict, ctx: Context, path: str) -> None:
+    if d["name"].casefold() in RESERVED_NAMES:
+        ctx.fail(format_path([path, "name"]), f"'{d['name']}' is a reserved device name on "
+                 "Windows and cannot be a file name", "choose another plate name (not CON, PRN, "
+                 "AUX, NUL, COM1-COM9, LPT1-LPT9, in any case)")
+
+
 PLATE = Record("plate", {
-    "name": Field(Text(word=True), "plate name, unique (file names, --set paths)", required=True),
-    "part_number": Field(Text(), "part number for the label and the report", default=""),
-    "quantity": Field(Integer(1), "how many to cut", default=1),
+    "name": Field(Text(word=True), "plate name, unique also ignoring case, not a reserved device "
+                  "name such as CON or NUL (file names, --set paths)", required=True),
+    "part_number": Field(Text(max_len=MAX_LABEL_CHARS), "part number for the label and the "
+                         "report", default=""),
+    "quantity": Field(Integer(1, MAX_QUANTITY), "how many to cut", default=1),
     "material": Field(Text(word=True), "material key for this plate (default: the design's)"),
     "thickness_mm": Field(Number(gt=0.0, le=50.0), "sheet thickness (default: the design's)"),
     "kerf_mm": Field(Number(ge=0.0, le=2.0), "kerf for this plate (default: design/machine)"),
     "outline": Field(OUTLINE, "the plate's outer contour", required=True),
-    "features": Field(ListOf(Tagged("type", FEATURE_TYPES), unique="id"),
+    "features": Field(ListOf(Tagged("type", FEATURE_TYPES), unique="id",
+                             max_len=MAX_FEATURES_PER_PLATE),
                       "holes, bores, slots, mounts and cut-outs", default=[]),
     "label": Field(LABEL, "engraved label: true, false, or settings", default=True),
-})
+}, (_check_plate_name,))
 
 _AS_PROFILE = "as in a bundled machine profile file (templates/machines)"
 MACHINE = Record("inline machine profile", {
@@ -211,8 +250,8 @@ LIGHTENING = Record("lightening (`platewright lighten`)", {
     "style": Field(Text(("organic", "pattern", "both")), "organic: free-form holes from the "
                    "optimised density; pattern: a regular array graded by it; both: compare",
                    default="organic"),
-    "plates": Field(ListOf(Text(word=True)), "plates to lighten (default: every plate with "
-                    "load cases)", default=[]),
+    "plates": Field(ListOf(Text(word=True), max_len=MAX_PLATES), "plates to lighten (default: "
+                    "every plate with load cases)", default=[]),
     "edge_margin_mm": Field(_OPT_MM, "solid band along the outline (default: max(1.5 x "
                             "thickness, min_web_mm))"),
     "feature_ring_mm": Field(_OPT_MM, "solid ring round every feature (default: max(1.5 x "
@@ -225,7 +264,7 @@ LIGHTENING = Record("lightening (`platewright lighten`)", {
                          "2 x corner_radius_mm))"),
     "chord_tol_mm": Field(Number(gt=0.0, le=1.0), "largest distance of a hole's lines and arcs "
                           "from the traced shape", default=0.05),
-    "solid_zones": Field(ListOf(_ZONE), "boxes kept solid (no holes)", default=[]),
+    "solid_zones": Field(ListOf(_ZONE, max_len=MAX_PLATES), "boxes kept solid (no holes)", default=[]),
     "keep_footprints": Field(Flag(), "keep component footprints and load areas solid",
                              default=True),
     "pattern_shape": Field(Text(("round", "triangle", "slot")), "hole shape of the pattern "
@@ -234,8 +273,8 @@ LIGHTENING = Record("lightening (`platewright lighten`)", {
                               "box diagonal / 12)"),
     "mesh_size_mm": Field(_OPT_MM, "element size of the optimisation mesh (default: bounding-"
                           "box diagonal / 45)"),
-    "max_iter": Field(Integer(1), "optimiser iterations (at most)", default=30),
-    "max_candidates": Field(Integer(1), "verified candidates per style (each one finite-"
+    "max_iter": Field(Integer(1, 1000), "optimiser iterations (at most)", default=30),
+    "max_candidates": Field(Integer(1, 100), "verified candidates per style (each one finite-"
                             "element check of the holed plate)", default=7),
 })
 
@@ -252,11 +291,12 @@ DESIGN = Record("design", {
                      "profile for the material, else the material's typical kerf)"),
     "references": Field(RefTable(), "named dimensions; values may use other references",
                         default={}),
-    "plates": Field(ListOf(PLATE, min_len=1, unique="name"), "the plates", required=True),
-    "load_cases": Field(ListOf(Raw()), "load cases for `platewright check` (fields: see 'Load "
-                        "cases and components')", default=[]),
-    "components": Field(ListOf(Raw()), "point masses carried by plates (fields: see 'Load cases "
-                        "and components')", default=[]),
+    "plates": Field(ListOf(PLATE, min_len=1, unique="name", max_len=MAX_PLATES, fold_case=True),
+                    "the plates", required=True),
+    "load_cases": Field(ListOf(Raw(), max_len=MAX_LOAD_CASES), "load cases for `platewright "
+                        "check` (fields: see 'Load cases and components')", default=[]),
+    "components": Field(ListOf(Raw(), max_len=MAX_COMPONENTS), "point masses carried by plates "
+                        "(fields: see 'Load cases and components')", default=[]),
     "vehicle_mass_g": Field(Number(gt=0.0), "mass of the whole vehicle for collision cases, g "
                             "(default: all plates x quantity + all components)"),
     "lightening": Field(LIGHTENING, "settings of `platewright lighten` (default: all derived "
@@ -370,7 +410,33 @@ def describe_schema() -> str:
                 out += [f"### `type: {k}`: {var.title}", ""]
                 markdown_table(var, out, nested, f"plates[].features[] ({k}).")
                 queue += nested
-    out += ["## overrides", "",
+    out += ["## limits", "",
+            "Refused before anything is built (exit 2), so a mistyped count cannot run for "
+            "minutes: "
+            f"a design file of at most {MAX_FILE_BYTES:,} bytes, lists and mappings nested at "
+            f"most {MAX_DEPTH} deep, expressions of at most {MAX_EXPRESSION_CHARS} characters, "
+            f"names (plates, feature ids, material keys) of at most {MAX_NAME_CHARS} characters, "
+            f"at most {MAX_PLATES} plates, {MAX_FEATURES_PER_PLATE:,} feature entries per plate, "
+            f"{MAX_HOLES_PER_PLATE:,} holes per plate and {MAX_HOLES_PER_DESIGN:,} in the design "
+            "(a fastener_array counts rows x cols, a mount its holes and pilot), "
+            f"`quantity` at most {MAX_QUANTITY:,}, `rows` and `cols` at most {MAX_ARRAY_SIDE:,}, "
+            f"{MAX_MOUNT_HOLES} holes per custom mount, {MAX_LIST_ITEMS:,} points or coordinates "
+            f"per list, {MAX_LOAD_CASES} load cases, {MAX_COMPONENTS:,} components, label text "
+            f"and part numbers of at most {MAX_LABEL_CHARS} characters. Sizes and corner radii "
+            f"other than 0 are at least {MIN_SIZE_MM:g} mm. Plate names must differ in more than "
+            "upper and lower case and may not be a device name Windows reserves (CON, PRN, AUX, "
+            "NUL, COM1-COM9, LPT1-LPT9): they become file names.", "",
+            "## kerf", "",
+            "Each plate's kerf comes from, in order: the plate's `kerf_mm`; the design's "
+            "`kerf_mm`; the machine profile's `kerf_mm_by_material` entry for the material at "
+            "the plate's thickness, else its entry without a thickness; when the profile has "
+            "entries for the material at other thicknesses only, a thickness between two of them "
+            "is interpolated linearly between the nearest thinner and thicker entry (warning "
+            "`kerf_interpolated`: measure it) and a thickness outside their range is refused; a "
+            "material the profile lists nothing for takes the profile's `kerf_mm`, else the "
+            "material library's typical kerf. report.json records where each plate's kerf came "
+            "from (`kerf_source`).", "",
+            "## overrides", "",
             "`--set PATH=VALUE` changes one field before validation, e.g. "
             "`references.wheelbase_mm=180`, `plates[1].thickness_mm=4`, "
             "`plates.deck.features.left_bore.diameter_mm=8.1` (plates by `name`, features by "

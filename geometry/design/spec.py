@@ -21,12 +21,18 @@ from typing import Any
 from platewright.geometry.design.yamlsource import LineMap
 from platewright.geometry.errors import Problem
 
-__all__ = ["BAD", "WORD", "Context", "Spec", "as_sequence", "suggest", "unit_of"]
+__all__ = ["BAD", "WORD", "Context", "Spec", "as_sequence", "short_repr", "suggest", "unit_of"]
 
 BAD = object()  # marks a value that failed validation (its problem is already recorded)
 WORD = re.compile(r"^[A-Za-z][A-Za-z0-9_\-]*$")
 _UNITS = {"_mm_s": "mm/s", "_mm": "mm", "_mm2": "mm^2", "_deg": "degrees", "_s": "s", "_g": "g",
           "_n": "N", "_mpa": "MPa"}
+
+
+def short_repr(value: Any, limit: int = 60) -> str:
+    """``repr`` of a value for a message, cut to ``limit`` characters (a pasted list may be long)."""
+    text = repr(value)
+    return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
 def unit_of(name: str) -> str:
@@ -80,6 +86,6 @@ class Spec:
 def as_sequence(value: Any, ctx: Context, path: str, what: str) -> list | None:
     """``value`` when it is a list, else None with the problem recorded at ``path``."""
     if not isinstance(value, list):
-        ctx.fail(path, f"expected {what}, got {value!r}")
+        ctx.fail(path, f"expected {what}, got {short_repr(value)}")
         return None
     return value

@@ -10,8 +10,16 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
-from platewright.geometry.design.spec import BAD, Context, Spec, as_sequence, suggest, unit_of
-from platewright.geometry.design.spec_values import Number, NumberList
+from platewright.geometry.design.spec import (
+    BAD,
+    Context,
+    Spec,
+    as_sequence,
+    short_repr,
+    suggest,
+    unit_of,
+)
+from platewright.geometry.design.spec_values import Integer, Number, NumberList
 from platewright.geometry.design.yamlsource import format_path
 
 __all__ = [
@@ -45,7 +53,7 @@ class Record(Spec):
 
     def check(self, value: Any, ctx: Context, path: str) -> Any:
         if not isinstance(value, Mapping):
-            return ctx.fail(path, f"expected a mapping ({self.title}), got {value!r}")
+            return ctx.fail(path, f"expected a mapping ({self.title}), got {short_repr(value)}")
         out: dict[str, Any] = {}
         ok = True
         for key in value:
@@ -78,11 +86,15 @@ class Record(Spec):
 
 @dataclass(frozen=True)
 class ListOf(Spec):
-    """A list of items of one spec; ``unique`` names a field whose values must differ."""
+    """A list of items of one spec; ``unique`` names a field whose values must differ (and,
+    with ``fold_case``, differ in more than upper and lower case); ``max_len`` caps the length
+    (0: no cap)."""
 
     item: Spec
     min_len: int = 0
     unique: str = ""
+    max_len: int = 0
+    fold_case: bool = False
 
     def type_name(self) -> str:
         return f"list of {self.item.type_name()}"
@@ -94,20 +106,27 @@ class ListOf(Spec):
         if len(seq) < self.min_len:
             return ctx.fail(path, f"needs at least {self.min_len} "
                             f"{'entry' if self.min_len == 1 else 'entries'}")
+        if self.max_len and len(seq) > self.max_len:
+            return ctx.fail(path, f"{len(seq)} entries is too many", f"at most {self.max_len}")
         out = [self.item.check(v, ctx, format_path([path, i])) for i, v in enumerate(seq)]
         if self.unique:
-            seen: dict[Any, int] = {}
+            seen: dict[str, int] = {}
             for i, v in enumerate(seq):
                 key = v.get(self.unique) if isinstance(v, Mapping) else None
-                if key is None:
+                if not isinstance(key, str):  # missing or not text: reported by the item spec
                     continue
-                if key in seen:
-                    ctx.fail(format_path([path, i, self.unique]), f"duplicate {self.unique} "
-                             f"'{key}' (also {format_path([path, seen[key]])})",
-                             f"every {self.unique} must be unique")
+                folded = key.casefold() if self.fold_case else key
+                if folded in seen:
+                    first = seq[seen[folded]][self.unique]
+                    same = "duplicate" if first == key else "differs only in case from"
+                    ctx.fail(format_path([path, i, self.unique]), f"{same} {self.unique} "
+                             f"'{first}' (also {format_path([path, seen[folded]])})",
+                             f"every {self.unique} must be unique"
+                             + (", also ignoring case (file names on Windows and macOS do)"
+                                if self.fold_case else ""))
                     out[i] = BAD
                 else:
-                    seen[key] = i
+                    seen[folded] = i
         return BAD if any(o is BAD for o in out) else out
 
 
@@ -144,13 +163,16 @@ class Tagged(Spec):
 
     def check(self, value: Any, ctx: Context, path: str) -> Any:
         if not isinstance(value, Mapping):
-            return ctx.fail(path, f"expected a mapping, got {value!r}")
+            return ctx.fail(path, f"expected a mapping, got {short_repr(value)}")
         kind = value.get(self.tag)
         if kind is None:
             return ctx.fail(path, f"missing '{self.tag}'", "one of: " + ", ".join(self.variants))
+        if not isinstance(kind, str):
+            return ctx.fail(format_path([path, self.tag]), f"expected text, got {short_repr(kind)}",
+                            "one of: " + ", ".join(self.variants))
         if kind not in self.variants:
-            return ctx.fail(format_path([path, self.tag]), f"unknown {self.tag} '{kind}'",
-                            suggest(str(kind), list(self.variants)))
+            return ctx.fail(format_path([path, self.tag]), f"unknown {self.tag} {short_repr(kind)}",
+                            suggest(kind, list(self.variants)))
         return self.variants[kind].check(value, ctx, path)
 
 
@@ -178,7 +200,7 @@ class Raw(Spec):
 
     def check(self, value: Any, ctx: Context, path: str) -> Any:
         if not isinstance(value, Mapping):
-            return ctx.fail(path, f"expected a mapping, got {value!r}")
+            return ctx.fail(path, f"expected a mapping, got {short_repr(value)}")
         return dict(value)
 
 
@@ -191,14 +213,14 @@ class RefTable(Spec):
 
     def check(self, value: Any, ctx: Context, path: str) -> Any:
         if not isinstance(value, Mapping):
-            return ctx.fail(path, f"expected a mapping of names to numbers, got {value!r}")
+            return ctx.fail(path, f"expected a mapping of names to numbers, got {short_repr(value)}")
         for key, v in value.items():
             sub = format_path([path, key])
             if not key.isidentifier() or key.startswith("_"):
                 ctx.fail(sub, f"'{key}' cannot be a reference name",
                          "use letters, digits and '_', starting with a letter")
             elif isinstance(v, bool) or not isinstance(v, (int, float, str)):
-                ctx.fail(sub, f"expected a number or an expression, got {v!r}")
+                ctx.fail(sub, f"expected a number or an expression, got {short_repr(v)}")
         return dict(value)
 
 
@@ -227,6 +249,10 @@ def markdown_table(rec: Record, lines: list[str], nested: list[tuple[str, Record
             rng = spec.range_text()
         elif isinstance(spec, NumberList) and spec.item.range_text():
             rng = "each " + spec.item.range_text()
+        elif isinstance(spec, Integer) and spec.le is not None:
+            rng = spec.range_text()
+        elif isinstance(spec, ListOf) and spec.max_len:
+            rng = f"at most {spec.max_len:,} entries"
         doc = f.doc + (f" ({rng})" if rng else "")
         lines.append(f"| `{name}` | {kind} | {unit_of(name) or '-'} | {default_text(f)} | {doc} |")
         sub = spec.mapping if isinstance(spec, AnyOf) else spec

@@ -8,10 +8,24 @@ from dataclasses import dataclass
 from typing import Any
 
 from platewright.geometry.design.expressions import ExpressionError, evaluate
-from platewright.geometry.design.spec import BAD, WORD, Context, Spec, as_sequence, suggest
+from platewright.geometry.design.spec import (
+    BAD,
+    WORD,
+    Context,
+    Spec,
+    as_sequence,
+    short_repr,
+    suggest,
+)
 from platewright.geometry.design.yamlsource import format_path
 
-__all__ = ["Flag", "Integer", "Number", "NumberList", "NumberOrList", "Point", "PointList", "Text"]
+__all__ = ["Flag", "Integer", "Number", "NumberList", "NumberOrList", "Point", "PointList", "Text",
+           "MAX_NAME_CHARS", "MAX_LIST_ITEMS"]
+
+#: Longest name (plate name, feature id, material key ...): names become file names.
+MAX_NAME_CHARS = 64
+#: Most values in a list of numbers or points (polygon corners, coordinates to enclose).
+MAX_LIST_ITEMS = 1000
 
 
 @dataclass(frozen=True)
@@ -22,15 +36,25 @@ class Number(Spec):
     ge: float | None = None
     le: float | None = None
     expr: bool = True
+    #: values of smaller magnitude than this, other than 0, are refused (a size too small to
+    #: make: it only breaks the geometry); 0 = no such floor
+    tiny: float = 0.0
 
     def type_name(self) -> str:
         return "number or expression" if self.expr else "number"
 
     def range_text(self) -> str:
-        parts = [f"> {self.gt:g}" if self.gt is not None else "",
-                 f">= {self.ge:g}" if self.ge is not None else "",
+        gt, ge = self.gt, self.ge
+        zero_too = self.tiny and ge == 0.0  # a radius or pitch: 0, or at least tiny
+        if zero_too:
+            ge = self.tiny
+        parts = [f"> {gt:g}" if gt is not None else "",
+                 f">= {ge:g}" if ge is not None else "",
                  f"<= {self.le:g}" if self.le is not None else ""]
-        return " and ".join(p for p in parts if p)
+        text = " and ".join(p for p in parts if p)
+        if zero_too:
+            return f"0, or {text}"
+        return f"{text} (at least {self.tiny:g})" if self.tiny else text
 
     def check(self, value: Any, ctx: Context, path: str) -> Any:
         if isinstance(value, str) and not self.expr:
@@ -48,32 +72,41 @@ class Number(Spec):
                 or (self.le is not None and not v <= self.le)):
             shown = f"{v:g}" if isinstance(value, (int, float)) else f"{value} = {v:g}"
             return ctx.fail(path, f"out of range ({shown})", f"must be {self.range_text()}")
+        if self.tiny and 0.0 < abs(v) < self.tiny:
+            shown = f"{v:g}" if isinstance(value, (int, float)) else f"{value} = {v:g}"
+            return ctx.fail(path, f"too small to make ({shown})", f"must be {self.range_text()}")
         return v
 
 
 @dataclass(frozen=True)
 class Integer(Spec):
-    """A whole number, at least ``ge``."""
+    """A whole number, at least ``ge`` and (when given) at most ``le``."""
 
     ge: int = 1
+    le: int | None = None
 
     def type_name(self) -> str:
         return "integer"
 
+    def range_text(self) -> str:
+        return f">= {self.ge}" + (f" and <= {self.le:,}" if self.le is not None else "")
+
     def check(self, value: Any, ctx: Context, path: str) -> Any:
         if isinstance(value, bool) or not isinstance(value, int):
-            return ctx.fail(path, f"expected a whole number, got {value!r}")
-        if value < self.ge:
-            return ctx.fail(path, f"out of range ({value})", f"must be >= {self.ge}")
+            return ctx.fail(path, f"expected a whole number, got {short_repr(value)}")
+        if value < self.ge or (self.le is not None and value > self.le):
+            return ctx.fail(path, f"out of range ({short_repr(value)})", f"must be {self.range_text()}")
         return value
 
 
 @dataclass(frozen=True)
 class Text(Spec):
-    """A string; ``choices`` restricts it, ``word`` requires a name usable in paths and files."""
+    """A string; ``choices`` restricts it, ``word`` requires a name usable in paths and files
+    (at most :data:`MAX_NAME_CHARS` characters); ``max_len`` caps any text (0: no cap)."""
 
     choices: tuple[str, ...] = ()
     word: bool = False
+    max_len: int = 0
 
     def type_name(self) -> str:
         return "one of: " + ", ".join(self.choices) if self.choices else "text"
@@ -82,9 +115,13 @@ class Text(Spec):
         if isinstance(value, (int, float)) and not isinstance(value, bool) and not self.word:
             value = str(value)  # e.g. a part number written as 1001
         if not isinstance(value, str):
-            return ctx.fail(path, f"expected text, got {value!r}")
+            return ctx.fail(path, f"expected text, got {short_repr(value)}")
+        limit = MAX_NAME_CHARS if self.word else self.max_len
+        if limit and len(value) > limit:
+            return ctx.fail(path, f"text of {len(value)} characters is too long",
+                            f"at most {limit} characters")
         if self.choices and value not in self.choices:
-            return ctx.fail(path, f"'{value}' is not allowed", suggest(value, self.choices))
+            return ctx.fail(path, f"{short_repr(value)} is not allowed", suggest(value, self.choices))
         if self.word and not WORD.match(value):
             return ctx.fail(path, f"'{value}' is not a valid name",
                             "start with a letter; use letters, digits, '_' and '-'")
@@ -100,7 +137,7 @@ class Flag(Spec):
 
     def check(self, value: Any, ctx: Context, path: str) -> Any:
         if not isinstance(value, bool):
-            return ctx.fail(path, f"expected true or false, got {value!r}")
+            return ctx.fail(path, f"expected true or false, got {short_repr(value)}")
         return value
 
 
@@ -126,6 +163,8 @@ class NumberList(Spec):
                             f"write it as {self.type_name()}")
         if len(seq) < self.min_len:
             return ctx.fail(path, f"needs at least {self.min_len} values, got {len(seq)}")
+        if len(seq) > MAX_LIST_ITEMS:
+            return ctx.fail(path, f"{len(seq)} values is too many", f"at most {MAX_LIST_ITEMS}")
         out = [self.item.check(v, ctx, format_path([path, i])) for i, v in enumerate(seq)]
         return BAD if any(o is BAD for o in out) else out
 
@@ -150,6 +189,8 @@ class PointList(Spec):
             return BAD
         if len(seq) < self.min_len:
             return ctx.fail(path, f"needs at least {self.min_len} points, got {len(seq)}")
+        if len(seq) > MAX_LIST_ITEMS:
+            return ctx.fail(path, f"{len(seq)} points is too many", f"at most {MAX_LIST_ITEMS}")
         out = [Point().check(v, ctx, format_path([path, i])) for i, v in enumerate(seq)]
         return BAD if any(o is BAD for o in out) else [tuple(p) for p in out]
 

@@ -8,15 +8,19 @@ problems name fields: ``plates[0].features[2].diameter_mm``.
 
 from __future__ import annotations
 
+import os
+import stat
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from pathlib import Path
 from typing import Any
 
 import yaml
 
 from platewright.geometry.errors import DesignError, Problem
 
-__all__ = ["LineMap", "SourceTree", "format_path", "parse_yaml", "parent_paths"]
+__all__ = ["LineMap", "SourceTree", "format_path", "parse_yaml", "parent_paths", "read_input_file",
+           "MAX_DEPTH", "MAX_FILE_BYTES", "MAX_NODES"]
 
 PathPart = str | int
 
@@ -78,6 +82,60 @@ class SourceTree:
 
 #: Most values a design may expand to (guards against alias bombs: ``&a [*b, *b, ...]``).
 MAX_NODES = 200_000
+#: Deepest nesting of lists and mappings accepted (a design needs about 8 levels).
+MAX_DEPTH = 50
+#: Largest design or machine profile file read, bytes (the starters are under 10 kB).
+MAX_FILE_BYTES = 2_000_000
+
+
+def read_input_file(path: str | Path, what: str = "design file") -> bytes:
+    """The bytes of an input file (design or machine profile), refusing what is not one.
+
+    DesignError (source = the path) when the file cannot be opened, is not a regular file
+    (``/dev/zero``, a folder, a pipe) or is larger than :data:`MAX_FILE_BYTES`.
+    """
+    p = Path(path)
+    try:
+        with open(p, "rb") as fh:
+            mode = os.fstat(fh.fileno()).st_mode
+            if not stat.S_ISREG(mode):
+                raise DesignError(Problem("", f"the {what} is not a regular file",
+                                          hint="give a YAML text file"), str(p))
+            raw = fh.read(MAX_FILE_BYTES + 1)
+    except OSError as exc:
+        raise DesignError(Problem("", f"cannot read the {what}: {exc.strerror or exc}"),
+                          str(p)) from exc
+    if len(raw) > MAX_FILE_BYTES:
+        raise DesignError(Problem("", f"the {what} is larger than {MAX_FILE_BYTES:,} bytes",
+                                  hint="a design file is text of a few kB"), str(p))
+    return raw
+
+
+def _too_deep(text: str, source: str) -> None:
+    """Refuse nesting deeper than MAX_DEPTH before composing (the composer recurses per level).
+
+    Walks the parser's events, which PyYAML produces without recursion; the problem names the
+    top-level field the nesting is under and the line where it goes too deep."""
+    depth = 0
+    top_key, expect_key = "", True  # keys of the top-level mapping, for the problem's path
+    root_is_mapping = False
+    for event in yaml.parse(text, Loader=yaml.SafeLoader):
+        if isinstance(event, (yaml.MappingStartEvent, yaml.SequenceStartEvent)):
+            if depth == 0:
+                root_is_mapping = isinstance(event, yaml.MappingStartEvent)
+            depth += 1
+            if depth > MAX_DEPTH:
+                raise DesignError(Problem(top_key, f"lists and mappings are nested more than "
+                                          f"{MAX_DEPTH} levels deep", event.start_mark.line + 1,
+                                          "a design needs only a few levels"), source)
+        elif isinstance(event, (yaml.MappingEndEvent, yaml.SequenceEndEvent)):
+            depth -= 1
+            expect_key = True
+        elif depth == 1 and root_is_mapping and isinstance(event, (yaml.ScalarEvent,
+                                                                   yaml.AliasEvent)):
+            if expect_key and isinstance(event, yaml.ScalarEvent):
+                top_key = str(event.value)
+            expect_key = not expect_key
 _MAP_TAG = "tag:yaml.org,2002:map"
 _SEQ_TAG = "tag:yaml.org,2002:seq"
 
@@ -136,10 +194,12 @@ def parse_yaml(text: str, source: str = "") -> SourceTree:
     """Parse YAML text (safe loader) into plain data plus the line of every field.
 
     Raises DesignError for malformed YAML (with the parser's line and message), for more than
-    one document, and for duplicate keys (all duplicates are reported together).
+    one document, for nesting deeper than MAX_DEPTH, for more than MAX_NODES values, and for
+    duplicate keys (all duplicates are reported together).
     """
     loader = yaml.SafeLoader(text)
     try:
+        _too_deep(text, source)
         node = loader.get_single_node()
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark

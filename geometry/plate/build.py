@@ -1,7 +1,8 @@
 """Plate assembly: a validated :class:`~.design.Design` -> :class:`~.model.Plate` objects.
 
 Each plate gets its material, thickness (mm), kerf (mm; plate ``kerf_mm`` > design ``kerf_mm``
-> machine profile for the material and thickness > the material's typical kerf), the outline
+> machine profile for the material and thickness (entry, interpolation or refusal: see
+``machines.kerf_choice``) > the material's typical kerf) and where it came from, the outline
 feature, the inner features (each with ``source_path``, ``source_line`` and ``refs``) and the
 engraved label. Input that cannot make a plate raises DesignError: a feature outside the outline
 or bigger than the plate, duplicate feature ids, a kerf at least as large as a feature. Detailed
@@ -28,7 +29,7 @@ from platewright.geometry.plate.curves import Contour
 from platewright.geometry.shop import machines
 from platewright.geometry.tolerances import CHORD_TOL_MM
 
-__all__ = ["build_plates", "build_plate", "plate_kerf_mm", "bundled_example_path",
+__all__ = ["build_plates", "build_plate", "plate_kerf", "plate_kerf_mm", "bundled_example_path",
            "list_templates", "with_measured_fits", "OUTLINE_ID", "LABEL_ID"]
 
 #: Feature id of every plate's outline, and of its engraved label.
@@ -54,13 +55,31 @@ def list_templates() -> list[Path]:
     return sorted(_designs_folder().glob("*.yaml"))
 
 
-def plate_kerf_mm(design: Design, spec: PlateSpec) -> float:
-    """The kerf (mm) for a plate: plate override, design override, machine profile, material."""
+def plate_kerf(design: Design, spec: PlateSpec) -> machines.KerfChoice:
+    """The kerf (mm) for a plate and where it came from: plate override, design override, else
+    the machine profile's rule (:func:`~platewright.geometry.shop.machines.kerf_choice`).
+    DesignError on the thickness field when the profile has no entry at or around the
+    plate's thickness for its material."""
     if spec.kerf_mm is not None:
-        return spec.kerf_mm
+        return machines.KerfChoice(spec.kerf_mm, "plate kerf_mm")
     if design.kerf_mm is not None:
-        return design.kerf_mm
-    return machines.kerf_for(design.machine, spec.material.key, spec.thickness_mm)
+        return machines.KerfChoice(design.kerf_mm, "design kerf_mm")
+    try:
+        return machines.kerf_choice(design.machine, spec.material.key, spec.thickness_mm)
+    except machines.KerfRangeError as exc:
+        own = f"{spec.path}.thickness_mm"
+        path = own if (own in design.lines.lines or design.lines.is_overridden(own)) \
+            else "thickness_mm"
+        raise DesignError(Problem(path, str(exc), design.line_of(path),
+                                  "measure the kerf (`platewright coupon`) and add a "
+                                  "kerf_mm_by_material entry to the profile, or set kerf_mm on "
+                                  "the plate or the design"), design.source_path) from None
+
+
+def plate_kerf_mm(design: Design, spec: PlateSpec) -> float:
+    """The kerf (mm) for a plate: plate override, design override, machine profile, material
+    (see :func:`plate_kerf`)."""
+    return plate_kerf(design, spec).kerf_mm
 
 
 def _outline(spec: OutlineSpec) -> Feature:
@@ -221,11 +240,12 @@ def build_plate(design: Design, spec: PlateSpec) -> Plate:
                 problems.append(_problem(exc, fs.path, design, fs.params))
         except ValueError as exc:
             problems.append(_problem(exc, fs.path, design, fs.params))
-    kerf = plate_kerf_mm(design, spec)
+    choice = plate_kerf(design, spec)
+    kerf = choice.kerf_mm
     plate = Plate(name=spec.name, material=spec.material, thickness_mm=spec.thickness_mm,
                   kerf_mm=kerf, outline=outline, features=tuple(feats),
                   engravings=_label(design, spec, outline, kerf), part_number=spec.part_number,
-                  quantity=spec.quantity, source_path=spec.path)
+                  quantity=spec.quantity, source_path=spec.path, kerf_source=choice.source)
     _check(design, plate, spec, problems)
     if problems:
         raise DesignError(problems, design.source_path)

@@ -13,12 +13,15 @@ from __future__ import annotations
 import math
 
 import numpy as np
+import shapely
+from shapely.geometry.polygon import orient
 
 from platewright.geometry.model import MassProperties, Plate
 from platewright.geometry.plate.curves import Contour, segment_arc
 from platewright.geometry.plate.cutpaths import part_contours
+from platewright.geometry.tolerances import CHORD_TOL_MM
 
-__all__ = ["contour_moments", "mass_properties", "combine"]
+__all__ = ["contour_moments", "mass_properties", "merged_mass_properties", "combine"]
 
 #: kg/m^3 -> g/mm^3
 _DENSITY_TO_G_MM3 = 1e-6
@@ -154,8 +157,40 @@ def mass_properties(plate: Plate) -> MassProperties:
     total = np.zeros(6)
     for _fid, c in part_contours(plate):
         total += np.array(contour_moments(c))
+    return _from_moments(plate, total)
+
+
+def merged_mass_properties(plate: Plate, chord_tol_mm: float = CHORD_TOL_MM) -> MassProperties:
+    """Mass properties as :func:`mass_properties`, for holes that overlap or reach outside.
+
+    The material is the outline minus the union of the holes, as shapely polygons built to
+    ``chord_tol_mm``; every arc is replaced by its chords, so the area is larger than the exact
+    one by at most (hole perimeter x chord_tol_mm) and the result is an estimate of that order.
+    The moments are the exact ones of those straight-sided pieces. ValueError when nothing is
+    left of the plate.
+    """
+    solids, holes = [], []
+    for _fid, c in part_contours(plate):
+        (solids if c.is_ccw() else holes).append(shapely.Polygon(c.to_points(chord_tol_mm)))
+    material = shapely.make_valid(shapely.union_all(solids))
+    if holes:
+        material = shapely.difference(material, shapely.make_valid(shapely.union_all(holes)))
+    total = np.zeros(6)
+    for poly in getattr(material, "geoms", [material]):
+        if not isinstance(poly, shapely.Polygon) or poly.is_empty:
+            continue  # lines and points left where holes touch carry no area
+        poly = orient(poly, 1.0)  # exterior counter-clockwise, holes clockwise
+        for ring in (poly.exterior, *poly.interiors):
+            pts = np.asarray(ring.coords)[:-1]
+            if len(pts) >= 3:
+                total += np.array(contour_moments(Contour(pts)))
+    return _from_moments(plate, total)
+
+
+def _from_moments(plate: Plate, total: np.ndarray) -> MassProperties:
+    """Mass properties of a plate from its summed contour moments about the origin."""
     a, sx, sy, ixx0, iyy0, ixy0 = (float(v) for v in total)
-    if a <= 0.0:
+    if not a > 0.0:
         raise ValueError(f"plate {plate.name!r} has no material (area {a:g} mm^2)")
     cx, cy = sx / a, sy / a
     ixx = ixx0 - a * cy * cy

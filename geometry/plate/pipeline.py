@@ -8,11 +8,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from platewright.geometry.design.loader import Design
+from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.model import CutContour, Finding, MassProperties, Plate
 from platewright.geometry.plate.build import build_plates
 from platewright.geometry.plate.cutpaths import cut_paths
 from platewright.geometry.plate.dimensions import FeatureDimensions, dimension_table
-from platewright.geometry.plate.mass import combine, mass_properties
+from platewright.geometry.plate.mass import combine, mass_properties, merged_mass_properties
 from platewright.geometry.plate.rules import check_plate
 
 __all__ = ["BuiltPlate", "BuildResult", "build_design"]
@@ -59,11 +60,44 @@ class BuildResult:
         return [(b.plate.name, f) for b in self.plates for f in b.findings if f.level == "error"]
 
 
+def _disjoint(findings: tuple[Finding, ...]) -> bool:
+    """False when a rule found holes that overlap, touch (a web of 0 or less) or reach outside
+    the outline: the exact mass properties assume disjoint holes inside the outline."""
+    for f in findings:
+        if f.level != "error":
+            continue
+        if f.rule in ("feature_overlap", "feature_outside"):
+            return False
+        if f.rule in ("web", "edge_distance") and f.value is not None and f.value <= 0.0:
+            return False
+    return True
+
+
+def _mass(design: Design, plate: Plate, findings: tuple[Finding, ...]) -> MassProperties:
+    """Exact mass properties; from the merged polygon region when holes overlap, touch or
+    reach outside (then an estimate to the chord tolerance). DesignError (the plate's path and
+    line) when the holes leave no material."""
+    try:
+        if _disjoint(findings):
+            try:
+                return mass_properties(plate)
+            except ValueError:  # not caught by the rules: merge to be sure
+                pass
+        return merged_mass_properties(plate)
+    except ValueError:
+        raise DesignError(Problem(plate.source_path, f"the holes of plate '{plate.name}' "
+                                  "remove all of its material", design.line_of(plate.source_path),
+                                  "move or shrink the holes so that material is left"),
+                          design.source_path) from None
+
+
 def build_design(design: Design) -> BuildResult:
     """Build every plate of ``design``: geometry, cut paths, manufacturability findings and mass.
 
-    Raises DesignError for input that cannot be built; manufacturability errors are returned as
-    findings (the caller decides whether they stop the build).
+    Raises DesignError for input that cannot be built (also holes that leave no material);
+    manufacturability errors are returned as findings (the caller decides whether they stop the
+    build). Where holes overlap or touch, the mass properties come from the merged polygon
+    region (an estimate to the chord tolerance) instead of the exact contour integrals.
     """
     built = []
     for plate in build_plates(design):
@@ -74,7 +108,7 @@ def build_design(design: Design) -> BuildResult:
                 plate=plate,
                 cut=cut,
                 findings=findings,
-                mass=mass_properties(plate),
+                mass=_mass(design, plate, findings),
                 dimensions=tuple(dimension_table(plate, cut)),
             )
         )

@@ -28,6 +28,9 @@
     outline minus radius) replaces the ``web`` rule against the outline. Warning below
     max(1.5 t, d) (common practice for sheet metal; REFERENCE.md), or below the minimum web when
     that is larger; error below the ``web`` error limit.
+``kerf_interpolated``
+    The plate's kerf was interpolated between two thicknesses of the machine profile's entries
+    for the material (warning: measure it). Value: the kerf used, mm; no limit.
 ``slot_travel``
     A ``slot`` feature with ``dims["travel_mm"]``: the bore swept along the slot axis over the
     travel (a stadium of the as-cut slot width and centre distance = travel, centred on the
@@ -53,6 +56,7 @@ from platewright.geometry.model import Finding, Plate
 from platewright.geometry.plate.curves import Contour
 from platewright.geometry.plate.cutpaths import part_contours
 from platewright.geometry.plate.region import to_polygon
+from platewright.geometry.shop.machines import KERF_INTERPOLATED
 from platewright.geometry.tolerances import CHORD_TOL_MM
 
 __all__ = ["check_plate", "has_errors", "RULE_NAMES"]
@@ -66,6 +70,7 @@ RULE_NAMES = (
     "web",
     "edge_distance",
     "slot_travel",
+    "kerf_interpolated",
 )
 
 #: Absolute floor of a cuttable feature width, mm (common practice: details below 1 mm are fragile).
@@ -129,6 +134,10 @@ def check_plate(plate: Plate, bed_mm: tuple[float, float] | None = None) -> list
     findings += _size_rule(inner, t, kerf)
     findings += _edge_rules(plate, inner, ring, inside, min_web, web_error)
     findings += _slot_travel_rule(plate, items, outline, min_web)
+    if plate.kerf_source.startswith(KERF_INTERPOLATED):
+        findings.append(Finding("warning", "kerf_interpolated", (plate.outline.id,),
+                                float(kerf), None, f"kerf {kerf:.3f} mm {plate.kerf_source}: "
+                                "measure it on your machine (`platewright coupon`)"))
     return findings
 
 

@@ -7,6 +7,7 @@ Units: lengths mm, speeds mm/s, times s, rates and prices in the profile's ``cur
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import os
 from collections.abc import Mapping
@@ -16,7 +17,7 @@ from typing import Any
 import yaml
 
 from platewright.geometry.design.schema import suggest
-from platewright.geometry.design.yamlsource import parse_yaml
+from platewright.geometry.design.yamlsource import parse_yaml, read_input_file
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.shop.machines import (
     MachineProfile,
@@ -30,6 +31,7 @@ from platewright.geometry.writers.atomic import write_atomic
 __all__ = [
     "PROFILE_FIELDS_DOC",
     "describe_machine_profile",
+    "PROFILE_SUFFIXES",
     "is_profile_path",
     "load_profile_file",
     "read_profile_file",
@@ -47,7 +49,8 @@ PROFILE_FIELDS_DOC: tuple[tuple[str, str, str, str], ...] = (
     ("kind", "-", '""', "machine kind, free text, e.g. co2_laser, fibre_laser, router"),
     ("notes", "-", '""', "free text; bundled examples say \"example values: measure your own\""),
     ("bed_mm", "mm", "none (no bed-size check)", "usable bed [x, y]"),
-    ("kerf_mm", "mm", "the material's typical kerf", "default kerf of this machine"),
+    ("kerf_mm", "mm", "the material's typical kerf",
+     "default kerf of this machine, for materials kerf_mm_by_material does not list"),
     ("kerf_mm_by_material", "mm", "none",
      "material key -> list of {thickness_mm, kerf_mm}; omit thickness_mm for any thickness. "
      "Measured values (`platewright coupon --measured`) go here and override every default"),
@@ -80,6 +83,12 @@ def describe_machine_profile() -> str:
     rows += [f"| `{f}` | {u} | {d} | {m} |" for f, u, d, m in PROFILE_FIELDS_DOC]
     rows += ["", "Look-ups for a material and thickness take the entry for that thickness "
              "(to 1e-6 mm), else the material's entry without thickness, else the default above.",
+             "Kerf is stricter: when `kerf_mm_by_material` has entries for the material at other "
+             "thicknesses only, a thickness between two of them is interpolated linearly (with a "
+             "`kerf_interpolated` warning) and one outside their range is refused; `kerf_mm` "
+             "applies to materials the table does not list.",
+             "Profile files must end in .yaml or .yml; problems in one are reported against the "
+             "profile file and its own lines.",
              "Cut time estimates are quoted +-20 % (common practice)."]
     return "\n".join(rows) + "\n"
 
@@ -89,12 +98,21 @@ def is_profile_path(value: str) -> bool:
     return value.endswith((".yaml", ".yml")) or "/" in value or os.sep in value
 
 
+#: File name endings of machine profile files; other files are never read as profiles.
+PROFILE_SUFFIXES = (".yaml", ".yml")
+
+
 def read_profile_text(text: str, source: str, key: str) -> MachineProfile:
     """A profile from YAML text; DesignError with the field path and line of a bad field."""
     tree = parse_yaml(text, source)
     if tree.data is None:
         raise DesignError(Problem("", "the profile file is empty", 1, "see describe_machine_profile"),
                           source)
+    if not isinstance(tree.data, Mapping):
+        what = "a list" if isinstance(tree.data, list) else "a single value"
+        raise DesignError(Problem("", f"a machine profile holds a mapping of profile fields "
+                                  f"(name, bed_mm, kerf_mm, ...); this file holds {what}", 1,
+                                  "see `platewright machines --fields`"), source)
     try:
         return machine_from_mapping(tree.data, key=key)
     except ProfileFieldError as exc:
@@ -107,12 +125,12 @@ def read_profile_file(path: str | Path, key: str | None = None) -> tuple[Machine
     of the file's bytes. DesignError for a missing or unreadable file, bad YAML, or a bad field
     (path + line)."""
     p = Path(path)
+    raw = read_input_file(p, "machine profile")
     try:
-        raw = p.read_bytes()
         text = raw.decode("utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
-        why = getattr(exc, "strerror", None) or str(exc)
-        raise DesignError(Problem("", f"cannot read the machine profile: {why}"), str(p)) from exc
+    except UnicodeDecodeError as exc:
+        raise DesignError(Problem("", f"the machine profile is not UTF-8 text (byte {exc.start})"),
+                          str(p)) from exc
     return read_profile_text(text, str(p), key or p.stem), hashlib.sha256(raw).hexdigest()
 
 
@@ -225,16 +243,29 @@ def resolve_machine_source(value: str, base_dir: str | Path | None = None,
                            ) -> tuple[MachineProfile, Path | None, str | None]:
     """A bundled profile key or a profile file path (relative paths from ``base_dir``, default
     the working folder): the profile, and for a file its path and the sha256 of its bytes
-    (None, None for a bundled key). DesignError naming ``field`` for an unknown key or a bad
-    file."""
+    (None, None for a bundled key). DesignError naming ``field`` (at ``line``) for an unknown
+    key, a file that does not end in .yaml / .yml or does not exist; a bad profile file gives
+    problems whose ``source`` is the profile file (with its own lines), each saying which field
+    named it."""
     if is_profile_path(value):
         p = Path(value)
+        if p.suffix.lower() not in PROFILE_SUFFIXES:
+            raise DesignError(Problem(field, f"'{value}' is not a machine profile file", line,
+                                      "profile files end in .yaml or .yml; or give a bundled "
+                                      "key (`platewright machines`)"))
         if not p.is_absolute() and base_dir is not None:
             p = Path(base_dir) / p
         if not p.exists():
             raise DesignError(Problem(field, f"no machine profile file '{p}'", line,
                                       "give a bundled key (`platewright machines`) or a file"))
-        profile, digest = read_profile_file(p)
+        try:
+            profile, digest = read_profile_file(p)
+        except DesignError as exc:
+            named = f"{field} (line {line})" if line is not None else field
+            raise DesignError([dataclasses.replace(
+                q, source=q.source or exc.source or str(p),
+                hint=(f"{q.hint}; " if q.hint else "") + f"profile named by {named}")
+                for q in exc.problems], exc.source) from None
         return profile, p, digest
     try:
         return get_machine(value), None, None

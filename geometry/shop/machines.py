@@ -42,6 +42,10 @@ __all__ = [
     "get_machine",
     "machine_from_mapping",
     "kerf_for",
+    "kerf_choice",
+    "KerfChoice",
+    "KerfRangeError",
+    "KERF_INTERPOLATED",
     "speed_for",
     "pierce_for",
     "fit_allowances_for",
@@ -336,20 +340,80 @@ def _lookup(rows, thickness_mm: float):
     return None
 
 
-def kerf_for(machine: MachineProfile | None, material_key: str, thickness_mm: float) -> float:
-    """Kerf (mm) to use for a material key and sheet thickness (mm).
+#: First word of a KerfChoice.source that was interpolated between two profile entries.
+KERF_INTERPOLATED = "interpolated"
 
-    Order: the profile's entry for this material and thickness (matched to 1e-6 mm), then its
-    any-thickness entry for the material, then the profile default ``kerf_mm``, then the
-    material's ``typical_kerf_mm`` from the library.
+
+@dataclass(frozen=True)
+class KerfChoice:
+    """The kerf (mm) for a material and thickness, and where it came from (``source``, text
+    for the report). ``interpolated``: between two profile entries (the caller warns)."""
+
+    kerf_mm: float
+    source: str
+    interpolated: bool = False
+
+
+class KerfRangeError(ValueError):
+    """The profile has kerf entries for the material, but none at or around this thickness.
+
+    ``low_mm`` / ``high_mm``: the thinnest and thickest entry of the material."""
+
+    def __init__(self, machine_key: str, material_key: str, thickness_mm: float, low_mm: float,
+                 high_mm: float) -> None:
+        self.machine_key, self.material_key = machine_key, material_key
+        self.thickness_mm, self.low_mm, self.high_mm = thickness_mm, low_mm, high_mm
+        span = f"{low_mm:g} mm" if low_mm == high_mm else f"{low_mm:g} to {high_mm:g} mm"
+        super().__init__(f"machine profile '{machine_key}' has kerf entries for {material_key} "
+                         f"at {span} only, not {thickness_mm:g} mm")
+
+
+def kerf_choice(machine: MachineProfile | None, material_key: str,
+                thickness_mm: float) -> KerfChoice:
+    """Kerf (mm) for a material key and sheet thickness (mm), with where it came from.
+
+    The rule, in order:
+
+    1. the profile's entry for the material at this thickness (to 1e-6 mm);
+    2. the profile's entry for the material without a thickness (any thickness);
+    3. when the profile has entries for the material at other thicknesses only: a thickness
+       between two of them is interpolated linearly between the nearest thinner and thicker
+       entry (``interpolated`` set: the caller warns); outside their range
+       :class:`KerfRangeError` (kerf does not follow thickness closely enough to extrapolate:
+       measure it);
+    4. a material the profile has no entries for: the profile's default ``kerf_mm``;
+    5. else the material library's ``typical_kerf_mm``.
     """
     if machine is not None:
-        k = _lookup(machine.kerf_by_material.get(material_key, ()), thickness_mm)
-        if k is not None:
-            return k
+        rows = machine.kerf_by_material.get(material_key, ())
+        where = f"machine profile '{machine.key}'"
+        for t, k in rows:
+            if t is not None and abs(t - thickness_mm) <= _THICKNESS_MATCH_MM:
+                return KerfChoice(k, f"{where}: {material_key} {t:g} mm entry")
+        for t, k in rows:
+            if t is None:
+                return KerfChoice(k, f"{where}: {material_key} entry for any thickness")
+        table = sorted((t, k) for t, k in rows if t is not None)
+        if table:
+            below = [(t, k) for t, k in table if t < thickness_mm]
+            above = [(t, k) for t, k in table if t > thickness_mm]
+            if not below or not above:
+                raise KerfRangeError(machine.key, material_key, thickness_mm, table[0][0],
+                                     table[-1][0])
+            (t0, k0), (t1, k1) = below[-1], above[0]
+            kerf = k0 + (k1 - k0) * (thickness_mm - t0) / (t1 - t0)
+            return KerfChoice(kerf, f"{KERF_INTERPOLATED} from {where}: {material_key} "
+                              f"{t0:g} mm ({k0:g} mm) and {t1:g} mm ({k1:g} mm)", True)
         if machine.kerf_mm is not None:
-            return machine.kerf_mm
-    return get_material(material_key).typical_kerf_mm
+            return KerfChoice(machine.kerf_mm, f"{where}: default kerf_mm")
+    return KerfChoice(get_material(material_key).typical_kerf_mm,
+                      f"material library: {material_key} typical_kerf_mm")
+
+
+def kerf_for(machine: MachineProfile | None, material_key: str, thickness_mm: float) -> float:
+    """Kerf (mm) to use for a material key and sheet thickness (mm): the value of
+    :func:`kerf_choice` (see its rule); KerfRangeError outside the profile's entries."""
+    return kerf_choice(machine, material_key, thickness_mm).kerf_mm
 
 
 def speed_for(machine: MachineProfile, material_key: str, thickness_mm: float) -> float | None:
