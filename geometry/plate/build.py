@@ -105,10 +105,11 @@ def _features(spec: FeatureSpec, plate: PlateSpec) -> tuple[Feature, ...]:
                                 p["centered"], refs=refs)
     elif t == "motor_mount":
         out = fb.motor_mount(fid, at, library.get_motor(p["motor"]), p["angle_deg"], p["strap"],
-                             refs=refs)
+                             refs=refs, material=mat, pilot_fit=p["pilot_fit"])
     elif t == "custom_mount":
         holes = [(h["at_mm"][0], h["at_mm"][1], h["diameter_mm"]) for h in p["holes"]]
-        out = fb.custom_mount(fid, at, holes, p["pilot_diameter_mm"], p["angle_deg"], refs=refs)
+        out = fb.custom_mount(fid, at, holes, p["pilot_diameter_mm"], p["angle_deg"], refs=refs,
+                              material=mat, pilot_fit=p["pilot_fit"])
     else:  # the schema admits only the types above
         raise ValueError(f"type: unknown feature type '{t}'")
     note = p.get("note", "")
