@@ -80,18 +80,30 @@ class Feature:
 
 @dataclass(frozen=True)
 class Engraving:
-    """Text on the non-cut engraving layer: position (mm), height (mm), rotation (degrees)."""
+    """Text on the non-cut engraving layer: anchor position (mm; middle of the cap height, centre
+    of the text), cap height (mm), rotation (degrees, counter-clockwise about the anchor).
+
+    ``requested_text`` / ``requested_height_mm``: what the design asked for, when the label was
+    shortened / shrunk to stay inside the material ("" / 0 when engraved as asked; see
+    :mod:`platewright.geometry.plate.labels`).
+    """
 
     id: str
     text: str
     position_mm: tuple[float, float]
     height_mm: float
     rotation_deg: float = 0.0
+    requested_text: str = ""
+    requested_height_mm: float = 0.0
 
 
 @dataclass(frozen=True)
 class Plate:
-    """One plate: outline feature + inner features, material, thickness (mm) and kerf (mm)."""
+    """One plate: outline feature + inner features, material, thickness (mm) and kerf (mm).
+
+    ``engravings``: the labels engraved; ``dropped_engravings``: labels the design asked for that
+    fit nowhere inside the material (not engraved, reported by the rules).
+    """
 
     name: str
     material: Material
@@ -103,6 +115,7 @@ class Plate:
     part_number: str = ""
     quantity: int = 1
     source_path: str = ""
+    dropped_engravings: tuple[Engraving, ...] = ()
 
     def feature(self, feature_id: str) -> Feature:
         """The feature (or the outline) with this id; KeyError if absent."""
