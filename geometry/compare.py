@@ -7,7 +7,10 @@ build on disk be compared with one made now.
 
 Features are matched by id within a plate of the same name. A feature is *moved* when its centre
 moved by more than ``tol_mm``, *resized* when a nominal or cut size differs by more than
-``tol_mm``, *rotated* when its angle differs by more than ``tol_deg``. Units: mm, g, g mm^2,
+``tol_mm``, *rotated* when its angle differs by more than ``tol_deg``. The outline's centre is
+the centre of the plate's bounding box (``bbox_mm``), not its area centroid: stretching an
+outline evenly moves its centroid whenever the shape is not symmetric, and that is a change of
+size (reported as resized width or height), not a move. Units: mm, g, g mm^2,
 degrees; every change carries the value on side A, on side B and B minus A.
 """
 
@@ -254,8 +257,17 @@ def _angle(f: Mapping[str, Any]) -> float | None:
     return None
 
 
+def _box_center(plate: Mapping[str, Any]) -> tuple[float, float] | None:
+    box = plate.get("bbox_mm")
+    if not box or len(box) != 4:
+        return None
+    return (float(box[0]) + float(box[2])) / 2.0, (float(box[1]) + float(box[3])) / 2.0
+
+
 def _feature_changes(fa_list: Sequence[Mapping[str, Any]], fb_list: Sequence[Mapping[str, Any]],
-                     tol_mm: float, tol_deg: float) -> list[FeatureChange]:
+                     tol_mm: float, tol_deg: float,
+                     outline_centers: tuple[tuple[float, float] | None, ...] = (None, None),
+                     ) -> list[FeatureChange]:
     a = {f["id"]: f for f in fa_list}
     b = {f["id"]: f for f in fb_list}
     moved, resized, rotated, removed, added = [], [], [], [], []
@@ -265,6 +277,8 @@ def _feature_changes(fa_list: Sequence[Mapping[str, Any]], fb_list: Sequence[Map
             removed.append(FeatureChange(fid, fa["kind"], "removed", center_a_mm=_center(fa)))
             continue
         pa, pb = _center(fa), _center(fb)
+        if fa.get("kind") == "outline" and None not in outline_centers:
+            pa, pb = outline_centers  # type: ignore[assignment]
         dist = math.hypot(pb[0] - pa[0], pb[1] - pa[1])
         if dist > tol_mm:
             moved.append(FeatureChange(fid, fb["kind"], "moved", pa, pb, dist))
@@ -316,7 +330,7 @@ def _plate(pa: Mapping[str, Any], pb: Mapping[str, Any], tol_mm: float, tol_deg:
         centroid_b_mm=_center({"center_mm": pb["centroid_mm"]}),
         properties=props,
         features=tuple(_feature_changes(pa.get("features", []), pb.get("features", []),
-                                        tol_mm, tol_deg)),
+                                        tol_mm, tol_deg, (_box_center(pa), _box_center(pb)))),
         cases=tuple(_cases(pa, pb)),
     )
 

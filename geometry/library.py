@@ -59,9 +59,12 @@ class MotorPattern:
 
     ``body_mm``: (x, y) outer size of the body (a round body gives its diameter twice).
     ``holes``: tuple of (x_mm, y_mm, diameter_mm); screw sizes are already resolved to ISO 273
-    medium clearance unless the library gave a diameter. ``pilot_diameter_mm``: nominal hole that
-    clears the centring boss (None: no pilot hole). ``hole_screws``: the screw size per hole, or
-    "" where a diameter was given.
+    medium clearance unless the library gave a diameter. ``boss_diameter_mm``: the centring boss
+    (pilot) as the source gives it (None: no boss, no pilot hole); the hole cut for it is this
+    nominal size plus a fit allowance chosen by the mount (see
+    :func:`~platewright.geometry.plate.features.motor_mount`). ``boss_height_mm``: how far the
+    boss stands proud of the face (None when unknown). ``hole_screws``: the screw size per hole,
+    or "" where a diameter was given.
     """
 
     key: str
@@ -69,13 +72,14 @@ class MotorPattern:
     kind: str
     body_mm: tuple[float, float]
     holes: tuple[tuple[float, float, float], ...]
-    pilot_diameter_mm: float | None
+    boss_diameter_mm: float | None
     shaft_mm: float
     strap: StrapPattern | None
     caution: str
     sources: dict[str, str]
     body_shape: str = "square"
     hole_screws: tuple[str, ...] = ()
+    boss_height_mm: float | None = None
 
 
 # ---------------------------------------------------------------------------------------------
@@ -254,21 +258,24 @@ def _motor(key: str, d: Mapping[str, Any]) -> MotorPattern:
                                    positive=True),
             spacing_mm=read_number(f"{where}.strap.spacing_mm", s["spacing_mm"], positive=True),
         )
-    pilot = d.get("pilot_diameter_mm")
+    boss = d.get("boss_diameter_mm")
+    boss_height = d.get("boss_height_mm")
     return MotorPattern(
         key=key,
         name=str(d["name"]),
         kind=str(d["kind"]),
         body_mm=read_pair(f"{where}.body_mm", d["body_mm"]),
         holes=tuple(holes),
-        pilot_diameter_mm=None if pilot is None else read_number(f"{where}.pilot_diameter_mm",
-                                                             pilot, positive=True),
+        boss_diameter_mm=None if boss is None else read_number(f"{where}.boss_diameter_mm",
+                                                           boss, positive=True),
         shaft_mm=read_number(f"{where}.shaft_mm", d["shaft_mm"], positive=True),
         strap=strap,
         caution=str(d.get("caution", "")),
         sources={str(k): str(v) for k, v in (d.get("sources") or {}).items()},
         body_shape=str(d.get("body_shape", "square")),
         hole_screws=tuple(screws),
+        boss_height_mm=None if boss_height is None else read_number(
+            f"{where}.boss_height_mm", boss_height, positive=True),
     )
 
 

@@ -80,13 +80,21 @@ class Feature:
 
 @dataclass(frozen=True)
 class Engraving:
-    """Text on the non-cut engraving layer: position (mm), height (mm), rotation (degrees)."""
+    """Text on the non-cut engraving layer: anchor position (mm; middle of the cap height, centre
+    of the text), cap height (mm), rotation (degrees, counter-clockwise about the anchor).
+
+    ``requested_text`` / ``requested_height_mm``: what the design asked for, when the label was
+    shortened / shrunk to stay inside the material ("" / 0 when engraved as asked; see
+    :mod:`platewright.geometry.plate.labels`).
+    """
 
     id: str
     text: str
     position_mm: tuple[float, float]
     height_mm: float
     rotation_deg: float = 0.0
+    requested_text: str = ""
+    requested_height_mm: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -95,7 +103,10 @@ class Plate:
 
     ``kerf_source``: where the kerf came from (text for the report, e.g. ``plate kerf_mm`` or
     ``machine profile 'x': cast_acrylic 3 mm entry``; starts with ``interpolated`` when it was
-    interpolated between two profile entries); empty when not known."""
+    interpolated between two profile entries); empty when not known.
+    ``engravings``: the labels engraved; ``dropped_engravings``: labels the design asked for that
+    fit nowhere inside the material (not engraved, reported by the rules).
+    """
 
     name: str
     material: Material
@@ -108,6 +119,7 @@ class Plate:
     quantity: int = 1
     source_path: str = ""
     kerf_source: str = ""
+    dropped_engravings: tuple[Engraving, ...] = ()
 
     def feature(self, feature_id: str) -> Feature:
         """The feature (or the outline) with this id; KeyError if absent."""

@@ -119,12 +119,12 @@ def test_report_screenshot_shows_the_plate(chromium, checked_report, tmp_path):
                        "--window-size=1280,2400")
     assert res.returncode == 0, res.stderr[-2000:]
     shot = mpimg.imread(shot_path)
-    # report_html draws on #fbfcfd; svg_writer strokes outer cuts #cc0000, inner cuts #0033cc
+    # report_html draws on #fbfcfd; svg_writer strokes outer cuts #cc00cc, inner cuts #0033cc
     area = drawing_pixels(shot, (0xFB, 0xFC, 0xFD))
     r, g, b = area[..., 0], area[..., 1], area[..., 2]
-    red = (r > 150) & (g < 110) & (b < 110)
+    magenta = (r > 150) & (g < 110) & (b > 150)
     blue = (b > 150) & (r < 110) & (g < 150)
-    assert red.sum() > 200 and blue.sum() > 200
+    assert magenta.sum() > 200 and blue.sum() > 200
 
 
 def test_comparison_page_shows_both_sides(chromium, tmp_path):

@@ -165,9 +165,10 @@ def test_holes_clockwise_outlines_ccw() -> None:
         cutout("c", (0.0, 0.0), 10.0, 5.0, 1.0),
         fastener_hole("f", (0.0, 0.0), "M4"),
         *fastener_array("a", (0.0, 0.0), 2, 2, 10.0, 10.0, "M3"),
-        *motor_mount("m", (0.0, 0.0), get_motor("nema17")),
+        *motor_mount("m", (0.0, 0.0), get_motor("nema17"), material=ACRYLIC),
         *motor_mount("g", (0.0, 0.0), get_motor("gearmotor_37mm"), strap=True),
-        *custom_mount("cm", (0.0, 0.0), [(5.0, 0.0, 2.0)], pilot_diameter_mm=4.0),
+        *custom_mount("cm", (0.0, 0.0), [(5.0, 0.0, 2.0)], pilot_diameter_mm=4.0,
+                      material=ACRYLIC),
     ]
     for f in holes:
         for c in f.contours:
@@ -230,11 +231,20 @@ def test_motor_mount_strap_slots_and_caution() -> None:
     assert feats[0].center_mm[1] == pytest.approx(0.0, abs=1e-12)
     with pytest.raises(ValueError, match="strap"):
         motor_mount("x", (0.0, 0.0), get_motor("nema17"), strap=True)
+    # a strap mount replaces the face pattern: no pilot and no mounting holes
+    assert not any(f.kind in ("pilot", "mount_hole") for f in feats)
+
+
+def test_pilot_needs_a_material_and_a_known_fit_class() -> None:
+    with pytest.raises(ValueError, match="material"):
+        motor_mount("x", (0.0, 0.0), get_motor("nema17"))
+    with pytest.raises(ValueError, match="pilot_fit"):
+        motor_mount("x", (0.0, 0.0), get_motor("nema17"), material=ACRYLIC, pilot_fit="loose")
 
 
 def test_custom_mount_rotation() -> None:
     feats = custom_mount("cm", (10.0, 0.0), [(5.0, 0.0, 2.0), (0.0, -5.0, 2.0)],
-                         pilot_diameter_mm=6.0, angle_deg=90.0)
+                         pilot_diameter_mm=6.0, angle_deg=90.0, material=ACRYLIC)
     assert [f.id for f in feats] == ["cm.pilot", "cm.hole1", "cm.hole2"]
     # by hand: rotating (5, 0) by 90 deg gives (0, 5); (0, -5) gives (5, 0)
     assert np.allclose(feats[1].center_mm, (10.0, 5.0), atol=1e-12)

@@ -8,10 +8,12 @@ resolves the sheet stock, writes and prints.
 nest.json (``kind`` "nest", ``schema_version`` 1): ``designs`` [{name, file, sha256}],
 ``settings`` {spacing_mm, margin_mm, rotations}, ``parts`` [{plate, design, quantity, material,
 thickness_mm, area_mm2}], ``sheets`` [{index, material, thickness_mm, size_mm, sheet_source,
-parts_area_mm2, utilisation, files {dxf, svg}, placements [{plate, copy, x_mm, y_mm,
-rotation_deg, inside}], cost (the costing estimate of the sheet's cut, or null), sheet_price}],
-``notes``. Placement: sheet point = R(rotation_deg) * plate point + (x_mm, y_mm), sheet origin at
-its lower-left corner; utilisation = parts area (as cut, holes excluded) / sheet area.
+parts_area_mm2, utilisation, files {dxf, svg}, cut_layers [{layer, aci}] (the DXF cut layers
+in cut order, see :mod:`platewright.geometry.writers.sheet`), placements [{plate, copy, x_mm,
+y_mm, rotation_deg, inside}], cost (the costing estimate of the sheet's cut, or null),
+sheet_price}], ``notes``. Placement: sheet point = R(rotation_deg) * plate point + (x_mm, y_mm),
+sheet origin at its lower-left corner; utilisation = parts area (as cut, holes excluded) / sheet
+area.
 """
 
 from __future__ import annotations
@@ -37,7 +39,7 @@ from platewright.geometry.plate.pipeline import build_design
 from platewright.geometry.shop.costing import estimate_cut
 from platewright.geometry.shop.machines import MachineProfile, get_machine, sheet_for
 from platewright.geometry.shop.nesting import ROTATION_MODES, NestItem, NestResult, SheetSize, nest_parts
-from platewright.geometry.writers.sheet import sheet_svg_string, write_sheet_dxf
+from platewright.geometry.writers.sheet import sheet_cut_layers, sheet_svg_string, write_sheet_dxf
 
 __all__ = ["NestCommand", "parse_sheet_size", "parse_quantities", "nest_report", "nest_html", "nest_summary"]
 
@@ -149,6 +151,7 @@ def nest_report(result: NestResult, items: list[NestItem], design_of: list[str],
             "sheet_source": source[(s.material, s.thickness_mm)],
             "parts_area_mm2": round(s.parts_area_mm2, 3), "utilisation": round(s.utilisation, 5),
             "files": {"dxf": f"{stem}.dxf", "svg": f"{stem}.svg"},
+            "cut_layers": [{"layer": n, "aci": c} for n, c in sheet_cut_layers(s)],
             "placements": [{"plate": p.label, "copy": p.copy, "x_mm": round(p.x_mm, 6) + 0.0,
                             "y_mm": round(p.y_mm, 6) + 0.0, "rotation_deg": p.rotation_deg,
                             "inside": p.inside or None} for p in s.placements],
@@ -170,6 +173,24 @@ def nest_report(result: NestResult, items: list[NestItem], design_of: list[str],
     }
 
 
+#: The cut-order convention of the sheet files, as the nest page states it.
+CUT_ORDER_TEXT = (
+    "Engrave first, then cut layer by layer in the order listed for each sheet; the DXF "
+    "entities are also written in that order. Every part's holes are cut before its outline, and "
+    "a part that sits in another part's cut-out is cut completely (holes and outline) before that "
+    "cut-out, whose scrap would otherwise drop with the part on it. On a sheet with such nested "
+    "parts the cut layers are numbered by stage: PW_CUT1_INNER and PW_CUT1_OUTER hold the parts "
+    "nested deepest, PW_CUT2_* the parts holding them, and so on up to the parts on the open "
+    "sheet; other sheets use PW_CUT_INNER then PW_CUT_OUTER as the plate files do. The layer "
+    "table lists the layers in this order, their names sort in this order and their colour "
+    "numbers (ACI) rise in this order, so a cutter ordering by any of them cuts correctly.")
+
+
+def _layer_item(sheet: dict[str, Any]) -> str:
+    layers = ", ".join(f"{c['layer']} (ACI {c['aci']})" for c in sheet["cut_layers"])
+    return f"<li>Sheet {sheet['index']}: {html.escape(layers)}</li>"
+
+
 def nest_html(report: dict[str, Any], svgs: list[str]) -> str:
     """A short self-contained HTML page: settings, the sheet table and every sheet drawing."""
     e = html.escape
@@ -188,7 +209,9 @@ def nest_html(report: dict[str, Any], svgs: list[str]) -> str:
              "<table><tr><th>sheet</th><th class=l>material</th><th>t mm</th><th>size mm</th>"
              f"<th>parts</th><th>utilisation</th><th>cut min</th><th>cost</th></tr>{rows}</table>",
              "<p class=meta>Times and costs are estimates (+-20 %): machine time plus the whole "
-             "sheet price.</p>"]
+             "sheet price.</p>",
+             f"<h2>Cut order</h2><p>{e(CUT_ORDER_TEXT)}</p>"
+             f"<ul>{''.join(_layer_item(s) for s in report['sheets'])}</ul>"]
     parts += [f"<div class=caution>{e(n)}</div>" for n in report["notes"]]
     for s, svg in zip(report["sheets"], svgs):
         body = svg.split("?>", 1)[-1]

@@ -57,22 +57,23 @@ def _table(headers: Sequence[str], rows: Sequence[Sequence[str]], left: int = 1)
 
 
 _DIM_FIELDS = (
-    ("nominal_diameter_mm", "cut_diameter_mm", "diameter"),
-    ("nominal_width_mm", "cut_width_mm", "width"),
-    ("length_mm", "cut_length_mm", "length"),
-    ("width_mm", "cut_width_mm", "width"),
-    ("height_mm", "cut_height_mm", "height"),
+    ("nominal_diameter_mm", "cut_diameter_mm", "finished_diameter_mm", "diameter"),
+    ("nominal_width_mm", "cut_width_mm", "finished_width_mm", "width"),
+    ("length_mm", "cut_length_mm", "", "length"),
+    ("width_mm", "cut_width_mm", "", "width"),
+    ("height_mm", "cut_height_mm", "", "height"),
 )
 
 
 def _dimension_rows(features: list[dict[str, Any]]) -> list[list[str]]:
     rows = []
     for f in features:
-        for nominal_key, cut_key, label in _DIM_FIELDS:
+        for nominal_key, cut_key, finished_key, label in _DIM_FIELDS:
             if nominal_key in f and cut_key in f:
                 rows.append([
                     _e(f["id"]), _e(f["kind"]), label, _num(f[nominal_key]),
                     _e(f.get("fit_class", "")), _num(f.get("fit_allowance_mm", 0.0)),
+                    _num(f[finished_key]) if finished_key in f else "",
                     _num(f[cut_key]), _e(f.get("note", "")),
                 ])
         if "travel_mm" in f:
@@ -80,7 +81,7 @@ def _dimension_rows(features: list[dict[str, Any]]) -> list[list[str]]:
             if "trim_deg" in f:
                 trim = f" ({_num(f['trim_deg'], 2)} deg over {_num(f['span_mm'], 1)} mm)"
             rows.append([_e(f["id"]), _e(f["kind"]), "trim travel", _num(f["travel_mm"]), "", "",
-                         "", "travel" + trim])
+                         "", "", "travel" + trim])
     return rows
 
 
@@ -157,9 +158,11 @@ quantity {p['quantity']}, part number {_e(p['part_number'] or '-')}. Files: {fil
 <div class="drawing">{svg_markup}</div>
 <h3>Mass properties</h3>{_table(["quantity", "value"], mass_rows)}
 <h3>Dimensions: nominal against cut path</h3>
-<p class="meta">The cut path is where the cutter's centre runs: holes are cut smaller and the outline
-larger by the kerf, after the fit allowance is applied.</p>
-{_table(["feature", "kind", "dimension", "nominal mm", "fit", "allowance mm", "cut path mm", "note"],
+<p class="meta">Finished is the size as it comes off the machine (nominal + fit allowance). The cut
+path is where the cutter's centre runs: holes are cut smaller and the outline larger by the kerf,
+after the fit allowance is applied.</p>
+{_table(["feature", "kind", "dimension", "nominal mm", "fit", "allowance mm", "finished mm",
+         "cut path mm", "note"],
         _dimension_rows(p["features"]), left=3)}
 <h3>Manufacturability</h3>{ftable}
 {extra_html}

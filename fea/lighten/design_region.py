@@ -8,7 +8,9 @@ The design region is the plate's as-cut material minus keep-out zones:
   ring of the minimum web; never less than the minimum web;
 - a band of ``edge_margin_mm`` along the outline;
 - component footprints and the areas of area loads (the weight must have material to sit on);
-- user zones marked solid in the design file (``lightening.solid_zones``).
+- user zones marked solid in the design file (``lightening.solid_zones``);
+- the engraved labels' ink boxes with their margin (``labels.LABEL_MARGIN_MM``), so that a new
+  hole never runs under a label.
 
 A new hole placed inside the region therefore keeps the edge distance to every feature and the
 margin to the outline; the web between new holes is enforced where holes are made
@@ -28,6 +30,8 @@ import shapely
 from platewright.fea.loadcases.parse import Box, Component, LoadCase
 from platewright.geometry.model import Plate
 from platewright.geometry.plate.cutpaths import part_contours
+from platewright.geometry.plate.labels import LABEL_MARGIN_MM
+from platewright.geometry.plate.lettering import text_polygon
 from platewright.geometry.plate.region import plate_region, to_polygon
 
 __all__ = [
@@ -182,6 +186,10 @@ def design_region(
     zones.append(outline.exterior.buffer(s.edge_margin_mm, quad_segs=16))
     for box in s.solid_zones:
         zones.append(_box_polygon(box, bounds))
+    for e in plate.engravings:
+        label = text_polygon(e.text, e.position_mm, e.height_mm, e.rotation_deg)
+        if not label.is_empty:
+            zones.append(label.buffer(LABEL_MARGIN_MM, join_style="mitre"))
     if s.keep_footprints:
         for c in components:
             if c.plate == plate.name and c.at_mm is not None and c.footprint_mm is not None:

@@ -287,7 +287,7 @@ def hole_count(spec: PlateSpec) -> int:
             if m is None:  # unknown motor: refused when the plate is built
                 n += 1
             else:
-                n += 2 if p["strap"] else len(m.holes) + (m.pilot_diameter_mm is not None)
+                n += 2 if p["strap"] else len(m.holes) + (m.boss_diameter_mm is not None)
         else:
             n += 1
     return n

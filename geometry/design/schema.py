@@ -91,6 +91,9 @@ _ID = Field(Text(word=True), "feature id, unique on the plate (used by rules, lo
 _NOTE = Field(Text(), "free text kept with the feature (e.g. which bearing)", default="")
 _FIT = Field(Text(FIT_CLASSES), "fit class; its allowance comes from the material library",
              required=True)
+_PILOT_FIT = Field(Text(FIT_CLASSES), "fit class of the pilot hole over the motor's centring "
+                   "boss; hole = boss + the material's allowance for the class (clearance: the "
+                   "boss slips in, common practice)", default="clearance")
 _SERIES = Field(Text(("fine", "medium", "coarse")), "ISO 273 clearance series", default="medium")
 _SCREW = Field(Text(), "metric screw size, e.g. M3 (ISO 273 table, M2 to M8)", required=True)
 
@@ -145,16 +148,20 @@ FEATURE_TYPES: dict[str, Record] = {
         centered=Field(Flag(), "true: at_mm is the pattern centre; false: the first hole",
                        default=True)),
     "motor_mount": _feature("motor_mount",
-        "motor face: pilot clearance and mounting holes from the motor library",
+        "motor face: pilot hole over the centring boss and mounting holes from the motor library",
         motor=Field(Text(word=True), "motor pattern key from the library", required=True),
         angle_deg=Field(_ANGLE, "rotation of the pattern from +x", default=0.0),
-        strap=Field(Flag(), "also cut clamp-strap slots (round gearmotors)", default=False)),
+        strap=Field(Flag(), "the motor lies on the plate: cut two clamp-strap slots INSTEAD of "
+                    "the face pattern (no pilot, no mounting holes; round gearmotors)",
+                    default=False),
+        pilot_fit=_PILOT_FIT),
     "custom_mount": _feature("custom_mount",
         "your own mounting pattern",
         holes=Field(ListOf(_HOLE_SPEC, min_len=1, max_len=MAX_MOUNT_HOLES), "the holes",
                     required=True),
-        pilot_diameter_mm=Field(_SIZE, "optional centre clearance hole diameter"),
-        angle_deg=Field(_ANGLE, "rotation of the pattern from +x", default=0.0)),
+        pilot_diameter_mm=Field(_SIZE, "optional centring boss diameter; its hole gets pilot_fit"),
+        angle_deg=Field(_ANGLE, "rotation of the pattern from +x", default=0.0),
+        pilot_fit=_PILOT_FIT),
 }
 
 _RADIUS = Field(_RADIUS_MM, "corner radius", default=0.0)

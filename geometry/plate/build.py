@@ -4,9 +4,10 @@ Each plate gets its material, thickness (mm), kerf (mm; plate ``kerf_mm`` > desi
 > machine profile for the material and thickness (entry, interpolation or refusal: see
 ``machines.kerf_choice``) > the material's typical kerf) and where it came from, the outline
 feature, the inner features (each with ``source_path``, ``source_line`` and ``refs``) and the
-engraved label. Input that cannot make a plate raises DesignError: a feature outside the outline
-or bigger than the plate, duplicate feature ids, a kerf at least as large as a feature. Detailed
-manufacturability (webs, edge distances) is checked later by the rules stage.
+engraved label, fitted inside the material clear of every cut (:mod:`.labels`). Input that
+cannot make a plate raises DesignError: a feature outside the outline or bigger than the plate,
+duplicate feature ids, a kerf at least as large as a feature. Detailed manufacturability (webs,
+edge distances) is checked later by the rules stage.
 """
 
 from __future__ import annotations
@@ -22,10 +23,11 @@ from platewright.geometry import library
 from platewright.geometry.design.loader import Design, FeatureSpec, OutlineSpec, PlateSpec
 from platewright.geometry.design.schema import suggest
 from platewright.geometry.errors import DesignError, Problem
-from platewright.geometry.model import Engraving, Feature, Plate
+from platewright.geometry.model import Feature, Plate
 from platewright.geometry.plate import features as fb
 from platewright.geometry.plate import outlines
 from platewright.geometry.plate.curves import Contour
+from platewright.geometry.plate.labels import LabelRequest, default_label_texts, fit_label
 from platewright.geometry.shop import machines
 from platewright.geometry.tolerances import CHORD_TOL_MM
 
@@ -124,10 +126,11 @@ def _features(spec: FeatureSpec, plate: PlateSpec) -> tuple[Feature, ...]:
                                 p["centered"], refs=refs)
     elif t == "motor_mount":
         out = fb.motor_mount(fid, at, library.get_motor(p["motor"]), p["angle_deg"], p["strap"],
-                             refs=refs)
+                             refs=refs, material=mat, pilot_fit=p["pilot_fit"])
     elif t == "custom_mount":
         holes = [(h["at_mm"][0], h["at_mm"][1], h["diameter_mm"]) for h in p["holes"]]
-        out = fb.custom_mount(fid, at, holes, p["pilot_diameter_mm"], p["angle_deg"], refs=refs)
+        out = fb.custom_mount(fid, at, holes, p["pilot_diameter_mm"], p["angle_deg"], refs=refs,
+                              material=mat, pilot_fit=p["pilot_fit"])
     else:  # the schema admits only the types above
         raise ValueError(f"type: unknown feature type '{t}'")
     note = p.get("note", "")
@@ -192,29 +195,34 @@ def _check(design: Design, plate: Plate, spec: PlateSpec, problems: list[Problem
             problems.append(Problem(where, f"kerf {plate.kerf_mm:g} mm is not smaller than "
                                     f"'{f.id}' ({size[0]} {size[1]:g} mm incl. fit)",
                                     f.source_line, "make the feature larger or check kerf_mm"))
-    for e in plate.engravings:
-        if not outline.contains(ShapelyPoint(e.position_mm)):
+    lab = spec.label
+    if lab is not None and lab.at_mm is not None:
+        at = (float(lab.at_mm[0]), float(lab.at_mm[1]))
+        if not outline.contains(ShapelyPoint(at)):
             path = f"{spec.path}.label"
-            problems.append(Problem(path, f"label at {e.position_mm} lies outside the outline",
+            problems.append(Problem(path, f"label at {at} lies outside the outline",
                                     design.line_of(path)))
 
 
-def _label(design: Design, spec: PlateSpec, outline: Feature, kerf: float) -> tuple:
+def _label(spec: PlateSpec, outline: Feature, kerf: float) -> LabelRequest | None:
+    """The label the design asks for (fitted to the plate by :func:`.labels.fit_label`)."""
     lab = spec.label
     if lab is None:
-        return ()
-    text = lab.text
-    if text is None:
-        parts = [spec.name, spec.part_number, f"{spec.material.key} {spec.thickness_mm:g} mm",
-                 f"kerf {kerf:.2f} mm"]
-        text = "  ".join(p for p in parts if p)
+        return None
+    if lab.text is None:
+        texts = default_label_texts(spec.name, spec.part_number,
+                                    f"{spec.material.key} {spec.thickness_mm:g} mm",
+                                    f"kerf {kerf:.2f} mm")
+    else:
+        texts = (lab.text,)
     if lab.at_mm is not None:
-        at = lab.at_mm
-    else:  # near the lower edge, centred
-        x0, y0, x1, _ = outline.contours[0].bbox()
-        at = ((x0 + x1) / 2.0, y0 + 1.5 * lab.height_mm + spec.thickness_mm)
-    return (Engraving(LABEL_ID, text, (float(at[0]), float(at[1])), lab.height_mm,
-                      lab.rotation_deg),)
+        anchors = ((float(lab.at_mm[0]), float(lab.at_mm[1])),)
+    else:  # near the lower edge (the default), near the upper edge, the middle; centred in x
+        x0, y0, x1, y1 = outline.contours[0].bbox()
+        inset = 1.5 * lab.height_mm + spec.thickness_mm
+        cx = (x0 + x1) / 2.0
+        anchors = ((cx, y0 + inset), (cx, y1 - inset), (cx, (y0 + y1) / 2.0))
+    return LabelRequest(LABEL_ID, texts, lab.height_mm, lab.rotation_deg, anchors)
 
 
 def build_plate(design: Design, spec: PlateSpec) -> Plate:
@@ -244,12 +252,13 @@ def build_plate(design: Design, spec: PlateSpec) -> Plate:
     kerf = choice.kerf_mm
     plate = Plate(name=spec.name, material=spec.material, thickness_mm=spec.thickness_mm,
                   kerf_mm=kerf, outline=outline, features=tuple(feats),
-                  engravings=_label(design, spec, outline, kerf), part_number=spec.part_number,
-                  quantity=spec.quantity, source_path=spec.path, kerf_source=choice.source)
+                  part_number=spec.part_number, quantity=spec.quantity, source_path=spec.path,
+                  kerf_source=choice.source)
     _check(design, plate, spec, problems)
     if problems:
         raise DesignError(problems, design.source_path)
-    return plate
+    request = _label(spec, outline, kerf)
+    return plate if request is None else fit_label(plate, request)
 
 
 def build_plates(design: Design) -> list[Plate]:

@@ -261,16 +261,25 @@ def _mount(
     angle_deg: float,
     refs: Sequence[str],
     note: str,
-    pilot_allowance_mm: float = 0.0,
+    pilot_fit: str = "clearance",
+    material: Material | None = None,
 ) -> list[Feature]:
     c = check_point("center_mm", center_mm)
     ang = check_finite("angle_deg", angle_deg)
     out: list[Feature] = []
     if pilot_diameter_mm is not None:
+        boss = check_positive("pilot_diameter_mm", pilot_diameter_mm)
+        if material is None:
+            raise ValueError("material: needed for the pilot hole's fit allowance "
+                             f"(pilot_fit {pilot_fit!r})")
+        try:
+            allowance = _fit(pilot_fit, material)
+        except ValueError as exc:
+            raise ValueError(str(exc).replace("fit_class:", "pilot_fit:", 1)) from None
+        what = f"clears the {boss:g} mm boss, {pilot_fit} fit"
         out.append(round_hole(
-            f"{fid}.pilot", c, check_positive("pilot_diameter_mm", pilot_diameter_mm),
-            kind="pilot", fit_allowance_mm=pilot_allowance_mm,
-            fit_class="clearance" if pilot_allowance_mm else "", note=note, refs=refs,
+            f"{fid}.pilot", c, boss, kind="pilot", fit_allowance_mm=allowance,
+            fit_class=pilot_fit, note=f"{note}; {what}" if note else what, refs=refs,
         ))
     for i, h in enumerate(holes):
         try:
@@ -294,21 +303,24 @@ def motor_mount(
     strap: bool = False,
     refs: Sequence[str] = (),
     *,
-    pilot_allowance_mm: float = 0.0,
+    material: Material | None = None,
+    pilot_fit: str = "clearance",
 ) -> tuple[Feature, ...]:
     """Features to mount ``motor`` with its shaft axis at ``center_mm`` (mm).
 
-    ``strap=False`` (face mount, the plate across the shaft): a ``pilot`` clearance hole for the
-    boss and the ``mount_hole`` pattern turned by ``angle_deg``. ``strap=True`` (the motor lies
-    on the plate, its axis along ``angle_deg`` through ``center_mm``): two ``strap_slot``
-    features either side of the body; ValueError if the pattern has no strap. The motor's
-    caution text goes in every feature's ``note``. ``pilot_allowance_mm``: signed extra diameter
-    recorded on the pilot (class ``clearance``) for the cut stage.
+    ``strap=False`` (face mount, the plate across the shaft): a ``pilot`` hole for the centring
+    boss and the ``mount_hole`` pattern turned by ``angle_deg``. The pilot's nominal diameter is
+    the boss (``motor.boss_diameter_mm``); its fit allowance is the ``material``'s allowance for
+    the ``pilot_fit`` class (default ``clearance``, so the boss is never line-to-line with its
+    hole; ValueError when ``material`` is missing or lacks the class). ``strap=True`` (the motor
+    lies on the plate, its axis along ``angle_deg`` through ``center_mm``): two ``strap_slot``
+    features either side of the body INSTEAD of the face pattern; ValueError if the pattern has
+    no strap. The motor's caution text goes in every feature's ``note``.
     """
     note = f"{motor.name}: {motor.caution}" if motor.caution else motor.name
     if not strap:
-        return tuple(_mount(fid, center_mm, motor.holes, motor.pilot_diameter_mm, angle_deg,
-                            refs, note, pilot_allowance_mm))
+        return tuple(_mount(fid, center_mm, motor.holes, motor.boss_diameter_mm, angle_deg,
+                            refs, note, pilot_fit, material))
     if motor.strap is None:
         raise ValueError(f"strap: motor {motor.key!r} has no strap pattern "
                          "(strap mounts exist for round gearmotors)")
@@ -332,9 +344,14 @@ def custom_mount(
     pilot_diameter_mm: float | None = None,
     angle_deg: float = 0.0,
     refs: Sequence[str] = (),
+    *,
+    material: Material | None = None,
+    pilot_fit: str = "clearance",
 ) -> tuple[Feature, ...]:
     """A user-given mount: ``holes`` as (x_mm, y_mm, diameter_mm) relative to ``center_mm``,
-    turned by ``angle_deg``, plus an optional pilot hole of ``pilot_diameter_mm``."""
+    turned by ``angle_deg``, plus an optional pilot hole over a boss of ``pilot_diameter_mm``
+    with the ``material``'s allowance for the ``pilot_fit`` class (as in :func:`motor_mount`)."""
     if len(holes) == 0 and pilot_diameter_mm is None:
         raise ValueError("holes: give at least one hole or a pilot_diameter_mm")
-    return tuple(_mount(fid, center_mm, holes, pilot_diameter_mm, angle_deg, refs, ""))
+    return tuple(_mount(fid, center_mm, holes, pilot_diameter_mm, angle_deg, refs, "",
+                        pilot_fit, material))

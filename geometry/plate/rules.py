@@ -36,12 +36,17 @@
     travel (a stadium of the as-cut slot width and centre distance = travel, centred on the
     feature centre) must lie inside the outline shrunk by the minimum web. Otherwise an error
     whose value is the largest travel that fits (mm), limit = the travel asked for.
+``label``
+    An engraved label that was shrunk, shortened or dropped to stay inside the material, or
+    whose ink comes within ``labels.LABEL_MARGIN_MM`` of a cut edge (warning; see
+    :mod:`.labels` for the fitting rule and the face it is measured in).
 
-Distances are measured on shapely polygons built to ``CHORD_TOL_MM``, so values carry that
-error (a few micrometres; webs between two round holes are exact), and a value within
+Webs and edge distances are reported EXACTLY: they are measured on the lines and arcs of the
+as-cut contours (:mod:`.distance`), not on their polygons. Shapely polygons built to
+``CHORD_TOL_MM`` only find the candidate pairs (an STRtree, so the cost grows close to linearly
+with the number of holes), the overlaps and the outside reach; a value within
 2 x ``CHORD_TOL_MM`` of its limit counts as meeting it. The bed check uses the as-cut part's
-exact bounding box. Neighbour candidates come from an STRtree, so the cost grows close
-to linearly with the number of holes.
+exact bounding box.
 """
 
 from __future__ import annotations
@@ -55,6 +60,8 @@ from shapely.geometry import LineString, Point, Polygon
 from platewright.geometry.model import Finding, Plate
 from platewright.geometry.plate.curves import Contour
 from platewright.geometry.plate.cutpaths import part_contours
+from platewright.geometry.plate.distance import contour_distance, point_contour_distance
+from platewright.geometry.plate.labels import label_findings
 from platewright.geometry.plate.region import to_polygon
 from platewright.geometry.shop.machines import KERF_INTERPOLATED
 from platewright.geometry.tolerances import CHORD_TOL_MM
@@ -71,6 +78,7 @@ RULE_NAMES = (
     "edge_distance",
     "slot_travel",
     "kerf_interpolated",
+    "label",
 )
 
 #: Absolute floor of a cuttable feature width, mm (common practice: details below 1 mm are fragile).
@@ -113,7 +121,7 @@ def check_plate(plate: Plate, bed_mm: tuple[float, float] | None = None) -> list
     plate: the plate (nominal geometry; checks run on the as-cut part edges).
     bed_mm: (width, height) of the machine bed in mm, or None to skip the bed check.
     Returns findings grouped by rule: bed, outside, overlap and web between inner contours,
-    size, web/edge distance against the outline, slot travel. Raises DesignError (from
+    size, web/edge distance against the outline, slot travel, labels. Raises DesignError (from
     ``cutpaths.part_contours``) when a feature vanishes under its fit allowance.
     """
     t = plate.thickness_mm
@@ -132,12 +140,13 @@ def check_plate(plate: Plate, bed_mm: tuple[float, float] | None = None) -> list
     inside = _outside_rule(inner, outline, ring, findings)
     _overlap_and_web_rules(inner, min_web, web_error, findings)
     findings += _size_rule(inner, t, kerf)
-    findings += _edge_rules(plate, inner, ring, inside, min_web, web_error)
+    findings += _edge_rules(plate, inner, ring, outline_c, inside, min_web, web_error)
     findings += _slot_travel_rule(plate, items, outline, min_web)
     if plate.kerf_source.startswith(KERF_INTERPOLATED):
         findings.append(Finding("warning", "kerf_interpolated", (plate.outline.id,),
                                 float(kerf), None, f"kerf {kerf:.3f} mm {plate.kerf_source}: "
                                 "measure it on your machine (`platewright coupon`)"))
+    findings += label_findings(plate)
     return findings
 
 
@@ -193,7 +202,8 @@ def _overlap_and_web_rules(
     if n < 2:
         return
     tree = shapely.STRtree(inner.polys)
-    a, b = tree.query(inner.polys, predicate="dwithin", distance=min_web - _SLACK_MM)
+    # candidates on the polygons (within the chord error of the exact distance)
+    a, b = tree.query(inner.polys, predicate="dwithin", distance=min_web + _SLACK_MM)
     keep = a < b
     a, b = a[keep], b[keep]
     order = np.lexsort((b, a))
@@ -213,12 +223,13 @@ def _overlap_and_web_rules(
                 )
             )
             continue
-        d = float(d)
         if inner.round[i] and inner.round[j]:
             # exact for two circles: centre distance minus both radii
             (ci, ri), (cj, rj) = (c.circle_center_radius() for c in (inner.contours[i],
                                                                     inner.contours[j]))
             d = math.hypot(ci[0] - cj[0], ci[1] - cj[1]) - ri - rj
+        else:  # exact on the lines and arcs
+            d = contour_distance(inner.contours[i], inner.contours[j])
         findings += _web_finding(names, f"web between {who}", d, min_web, web_error)
 
 
@@ -285,7 +296,8 @@ def _inscribed_width(poly: Polygon, enough_mm: float) -> float:
 
 
 def _edge_rules(
-    plate: Plate, inner: _Inner, ring, inside: np.ndarray, min_web: float, web_error: float
+    plate: Plate, inner: _Inner, ring, outline_c: Contour, inside: np.ndarray, min_web: float,
+    web_error: float,
 ) -> list[Finding]:
     out: list[Finding] = []
     n = len(inner.polys)
@@ -299,15 +311,21 @@ def _edge_rules(
         names = _names(fid, oid)
         if inner.round[i]:
             (cx, cy), r = inner.contours[i].circle_center_radius()
-            d = float(shapely.distance(Point(cx, cy), ring)) - r
             limit = max(1.5 * t, 2.0 * r, min_web)
+            # the polygon distance is never more than the exact one plus the chord tolerance
+            if float(dist[i]) > limit + 2.0 * _SLACK_MM:
+                continue
+            d = point_contour_distance((cx, cy), outline_c) - r
             out += _web_finding(
                 names, f"edge distance of {fid}", d, min_web, web_error,
                 rule="edge_distance", warn_limit=limit,
             )
         else:
+            if float(dist[i]) > min_web + 2.0 * _SLACK_MM:
+                continue
+            d = contour_distance(inner.contours[i], outline_c)
             out += _web_finding(
-                names, f"web between {fid} and the outline", float(dist[i]), min_web, web_error
+                names, f"web between {fid} and the outline", d, min_web, web_error
             )
     return out
 

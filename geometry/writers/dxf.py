@@ -7,9 +7,15 @@ layer          ACI   content
 ============== ===== ==========================================================================
 PW_ENGRAVE     3     engraving labels as TEXT (importers may drop text), written first
 PW_CUT_INNER   5     inner cut paths, in their cut ``order``
-PW_CUT_OUTER   1     the outline cut path, written last (a freed part drops and shifts)
+PW_CUT_OUTER   6     the outline cut path, written last (a freed part drops and shifts)
 PW_NOTES       8     non-cut annotation (size, material, thickness, kerf, units); not plotted
 ============== ===== ==========================================================================
+
+The plotted layers agree with the cut order three ways, so a cutter that orders its work by
+entity, by layer table, by layer name or by colour number cuts in the same order: the layer table
+lists them in cut order, their names sort in cut order and their ACI colour numbers rise in cut
+order. (Nest sheets with parts inside other parts' cut-outs use numbered cut layers instead, see
+:mod:`.sheet`.)
 
 Circular paths become true CIRCLE entities; every other path a closed LWPOLYLINE with bulges
 (never splines). Vertices closer than ``MIN_SEGMENT_MM`` are merged and identical paths are
@@ -17,12 +23,17 @@ written once. Each cut entity carries the ids of the features it cuts as XDATA u
 application name ``PLATEWRIGHT`` (read back with :func:`entity_feature_ids`).
 
 Coordinates in mm; the header says so (``$INSUNITS`` = 4, ``$MEASUREMENT`` = 1). Some importers
-ignore ``$INSUNITS``, so the overall size is also printed on the notes layer.
+ignore ``$INSUNITS``, so the overall size is also printed on the notes layer. The header's drawing
+extents (``$EXTMIN``, ``$EXTMAX``) are the box of everything written: exact for the cut paths, the
+measured ink box for text. Every text uses the text style ``PW_LABEL``, whose font is the face
+labels are measured in (:mod:`platewright.geometry.plate.lettering`).
 """
 
 from __future__ import annotations
 
+import math
 import os
+from collections.abc import Sequence
 
 import ezdxf
 import numpy as np
@@ -31,6 +42,7 @@ from ezdxf.enums import TextEntityAlignment
 
 from platewright.geometry.model import CutContour, Plate
 from platewright.geometry.plate.curves import Contour
+from platewright.geometry.plate.lettering import LABEL_FONT_FILE, LABEL_STYLE, text_extent, text_polygon
 from platewright.geometry.tolerances import MIN_SEGMENT_MM
 
 __all__ = [
@@ -43,6 +55,9 @@ __all__ = [
     "write_plate_dxf",
     "entity_feature_ids",
     "polyline_vertices",
+    "Extents",
+    "write_note_lines",
+    "PLATE_CUT_LAYERS",
 ]
 
 LAYER_ENGRAVE = "PW_ENGRAVE"
@@ -52,8 +67,10 @@ LAYER_NOTES = "PW_NOTES"
 #: Application name of the feature-id XDATA on cut entities.
 XDATA_APP = "PLATEWRIGHT"
 
-#: ACI colours (platewright's choice): green, blue, red, grey.
-_LAYERS = {LAYER_ENGRAVE: 3, LAYER_CUT_INNER: 5, LAYER_CUT_OUTER: 1, LAYER_NOTES: 8}
+#: ACI colours (platewright's choice), rising in cut order: green, blue, magenta; notes grey.
+_LAYERS = {LAYER_ENGRAVE: 3, LAYER_CUT_INNER: 5, LAYER_CUT_OUTER: 6, LAYER_NOTES: 8}
+#: The plate files' cut layers and their ACI colours, in cut order.
+PLATE_CUT_LAYERS: tuple[tuple[str, int], ...] = ((LAYER_CUT_INNER, 5), (LAYER_CUT_OUTER, 6))
 #: DXF group codes: 1000 = XDATA string.
 _XDATA_STRING = 1000
 #: $INSUNITS code for millimetres and $MEASUREMENT code for metric (DXF reference).
@@ -110,18 +127,57 @@ def _cut_sequence(cut: list[CutContour]) -> list[CutContour]:
     return sorted(cut, key=lambda c: (c.layer != "inner", c.order))
 
 
-def new_cut_document() -> Drawing:
-    """An empty R2010 drawing in millimetres with our layers (notes layer not plotted) and our
-    XDATA application registered: the common start of every cut file we write."""
+class Extents:
+    """The growing box (mm) of what a writer has put in a drawing, for ``$EXTMIN``/``$EXTMAX``."""
+
+    def __init__(self) -> None:
+        self.box = [math.inf, math.inf, -math.inf, -math.inf]
+
+    def add(self, x0: float, y0: float, x1: float, y1: float) -> None:
+        """Grow the box to hold ``(x0, y0, x1, y1)`` (mm)."""
+        b = self.box
+        self.box = [min(b[0], x0), min(b[1], y0), max(b[2], x1), max(b[3], y1)]
+
+    def add_contour(self, contour: Contour) -> None:
+        """Grow the box to hold a contour (exact bounding box, arcs included)."""
+        self.add(*contour.bbox())
+
+    def add_text(self, text: str, position_mm: tuple[float, float], height_mm: float,
+                 rotation_deg: float = 0.0, *, left: bool = False) -> None:
+        """Grow the box to hold a text's ink, anchored as the writers place it (``left``: at the
+        left end of the baseline, unrotated; otherwise middle-centre, turned ``rotation_deg``)."""
+        if left:
+            x0, y0, x1, y1 = text_extent(text, height_mm, True)
+            self.add(position_mm[0] + x0, position_mm[1] + y0, position_mm[0] + x1,
+                     position_mm[1] + y1)
+            return
+        poly = text_polygon(text, position_mm, height_mm, rotation_deg)
+        if not poly.is_empty:
+            self.add(*poly.bounds)
+
+    def write(self, doc: Drawing) -> None:
+        """Set the drawing extents of ``doc`` (left unchanged when nothing was added): the model
+        space's, which ezdxf copies into the header's ``$EXTMIN``/``$EXTMAX`` on saving."""
+        x0, y0, x1, y1 = self.box
+        if x0 <= x1 and y0 <= y1:
+            doc.modelspace().reset_extents((float(x0), float(y0), 0.0), (float(x1), float(y1), 0.0))
+
+
+def new_cut_document(cut_layers: Sequence[tuple[str, int]] = PLATE_CUT_LAYERS) -> Drawing:
+    """An empty R2010 drawing in millimetres with our text style, our XDATA application and our
+    layers in cut order: the engraving layer, ``cut_layers`` ((name, ACI colour) in cut order;
+    default the plate files' two) and the notes layer (not plotted). The common start of every
+    cut file we write."""
     doc = ezdxf.new("R2010", setup=False)
     doc.units = _INSUNITS_MM
     doc.header["$INSUNITS"] = _INSUNITS_MM
     doc.header["$MEASUREMENT"] = _MEASUREMENT_METRIC
     doc.appids.add(XDATA_APP)
-    for name, colour in _LAYERS.items():
-        layer = doc.layers.add(name, color=colour)
-        if name == LAYER_NOTES:
-            layer.dxf.plot = 0
+    doc.styles.add(LABEL_STYLE, font=LABEL_FONT_FILE)
+    doc.layers.add(LAYER_ENGRAVE, color=_LAYERS[LAYER_ENGRAVE])
+    for name, colour in cut_layers:
+        doc.layers.add(name, color=colour)
+    doc.layers.add(LAYER_NOTES, color=_LAYERS[LAYER_NOTES]).dxf.plot = 0
     return doc
 
 
@@ -153,15 +209,17 @@ def write_plate_dxf(plate: Plate, cut: list[CutContour], path: str | os.PathLike
     """
     doc = new_cut_document()
     msp = doc.modelspace()
+    ext = Extents()
 
     for eng in plate.engravings:
         text = msp.add_text(
             eng.text,
             height=eng.height_mm,
             rotation=eng.rotation_deg,
-            dxfattribs={"layer": LAYER_ENGRAVE},
+            dxfattribs={"layer": LAYER_ENGRAVE, "style": LABEL_STYLE},
         )
         text.set_placement(eng.position_mm, align=TextEntityAlignment.MIDDLE_CENTER)
+        ext.add_text(eng.text, eng.position_mm, eng.height_mm, eng.rotation_deg)
 
     written: dict[tuple, object] = {}
     for cc in _cut_sequence(cut):
@@ -184,8 +242,10 @@ def write_plate_dxf(plate: Plate, cut: list[CutContour], path: str | os.PathLike
             )
         set_feature_ids(entity, (cc.feature_id,))
         written[key] = entity
+        ext.add_contour(cc.path)
 
-    _write_notes(msp, plate, cut)
+    _write_notes(msp, plate, cut, ext)
+    ext.write(doc)
     save_cut_document(doc, path)
 
 
@@ -195,7 +255,18 @@ def set_feature_ids(entity, ids: tuple[str, ...]) -> None:
     entity.set_xdata(XDATA_APP, [(_XDATA_STRING, i) for i in ids])
 
 
-def _write_notes(msp, plate: Plate, cut: list[CutContour]) -> None:
+def write_note_lines(msp, lines: list[str], left_mm: float, top_mm: float, ext: Extents) -> None:
+    """Notes-layer text lines, left-aligned at ``left_mm``, the first baseline at ``top_mm``."""
+    gap = 1.6 * NOTE_HEIGHT_MM
+    for k, line in enumerate(lines):
+        at = (left_mm, top_mm - gap * k)
+        msp.add_text(
+            line, height=NOTE_HEIGHT_MM, dxfattribs={"layer": LAYER_NOTES, "style": LABEL_STYLE}
+        ).set_placement(at, align=TextEntityAlignment.LEFT)
+        ext.add_text(line, at, NOTE_HEIGHT_MM, left=True)
+
+
+def _write_notes(msp, plate: Plate, cut: list[CutContour], ext: Extents) -> None:
     """Notes above the part: part size from the as-cut outline, material, thickness, kerf."""
     outers = [c.part_contour for c in cut if c.layer == "outer"] or [plate.outline.contours[0]]
     boxes = np.array([c.bbox() for c in outers])
@@ -210,8 +281,4 @@ def _write_notes(msp, plate: Plate, cut: list[CutContour]) -> None:
         "units: mm",
     ]
     gap = 1.6 * NOTE_HEIGHT_MM
-    top = y1 + 2.0 * NOTE_HEIGHT_MM + gap * len(lines)
-    for k, line in enumerate(lines):
-        msp.add_text(
-            line, height=NOTE_HEIGHT_MM, dxfattribs={"layer": LAYER_NOTES}
-        ).set_placement((x0, top - gap * k), align=TextEntityAlignment.LEFT)
+    write_note_lines(msp, lines, x0, y1 + 2.0 * NOTE_HEIGHT_MM + gap * len(lines), ext)

@@ -5,7 +5,9 @@ millimetre. Plate coordinates have +y up; SVG has +y down, so every point is wri
 ``(x, -y)`` (text stays upright). Arcs are exact SVG ``A`` commands, full circles ``<circle>``.
 One ``<g>`` per layer, with the same layer names as the DXF file as ids (``PW_ENGRAVE``,
 ``PW_CUT_INNER``, ``PW_CUT_OUTER``); strokes only, hairline width, no fill. Each cut element
-carries ``data-feature`` with its feature id.
+carries ``data-feature`` with its feature id. Text is set in the face the DXF names (family
+``DejaVu Sans``), its em size chosen so that its capitals are as high as the DXF text, on the same
+baseline: the two files show the same label.
 """
 
 from __future__ import annotations
@@ -18,6 +20,7 @@ import numpy as np
 
 from platewright.geometry.model import CutContour, Plate
 from platewright.geometry.plate.curves import Contour
+from platewright.geometry.plate.lettering import LABEL_FONT_FAMILY, em_per_cap
 from platewright.geometry.writers.dxf import (
     LAYER_CUT_INNER,
     LAYER_CUT_OUTER,
@@ -25,14 +28,14 @@ from platewright.geometry.writers.dxf import (
     polyline_vertices,
 )
 
-__all__ = ["plate_svg_string", "write_plate_svg", "HAIRLINE_MM", "MARGIN_MM"]
+__all__ = ["plate_svg_string", "write_plate_svg", "svg_text", "HAIRLINE_MM", "MARGIN_MM"]
 
 #: Stroke width of every path, mm (a hairline: lasers read thin strokes as vector cuts).
 HAIRLINE_MM = 0.025
 #: Empty border around the drawing, mm.
 MARGIN_MM = 2.0
-#: Stroke colours per layer (platewright's choice).
-LAYER_COLOURS = {LAYER_ENGRAVE: "#1a9641", LAYER_CUT_INNER: "#0033cc", LAYER_CUT_OUTER: "#cc0000"}
+#: Stroke colours per layer (platewright's choice, the hues of the DXF layers' ACI colours).
+LAYER_COLOURS = {LAYER_ENGRAVE: "#1a9641", LAYER_CUT_INNER: "#0033cc", LAYER_CUT_OUTER: "#cc00cc"}
 
 
 def svg_num(x: float) -> str:
@@ -64,6 +67,20 @@ def svg_path_data(contour: Contour) -> str:
     return " ".join(parts)
 
 
+def svg_text(text: str, position_mm: tuple[float, float], height_mm: float, rotation_deg: float,
+             feature_id: str) -> str:
+    """A ``<text>`` element drawn as the DXF TEXT is: cap height ``height_mm``, anchored at the
+    middle of the cap height and the centre of the text, turned ``rotation_deg`` counter-clockwise
+    (plate coordinates, mm; y flipped)."""
+    x, y = position_mm
+    base = -y + height_mm / 2.0  # the baseline lies half a cap height below the anchor
+    # rotation is counter-clockwise in plate coordinates, clockwise-positive in SVG
+    return (f'<text x="{svg_num(x)}" y="{svg_num(base)}" font-family="{LABEL_FONT_FAMILY}" '
+            f'font-size="{svg_num(height_mm * em_per_cap())}" text-anchor="middle" '
+            f'transform="rotate({svg_num(-rotation_deg)} {svg_num(x)} {svg_num(-y)})" '
+            f"data-feature={quoteattr(feature_id)}>{escape(text)}</text>")
+
+
 def _extent(plate: Plate, cut: list[CutContour]) -> tuple[float, float, float, float]:
     contours = [c.path for c in cut] or list(plate.outline.contours)
     boxes = np.array([c.bbox() for c in contours])
@@ -86,14 +103,7 @@ def plate_svg_string(plate: Plate, cut: list[CutContour]) -> str:
     style = f'fill="none" stroke-width="{svg_num(HAIRLINE_MM)}"'
     out.append(f'<g id="{LAYER_ENGRAVE}" fill="{LAYER_COLOURS[LAYER_ENGRAVE]}" stroke="none">')
     for e in plate.engravings:
-        x, y = e.position_mm
-        # rotation is counter-clockwise in plate coordinates, clockwise-positive in SVG
-        out.append(
-            f'<text x="{svg_num(x)}" y="{svg_num(-y)}" font-size="{svg_num(e.height_mm)}" '
-            f'text-anchor="middle" dominant-baseline="central" '
-            f'transform="rotate({svg_num(-e.rotation_deg)} {svg_num(x)} {svg_num(-y)})" '
-            f"data-feature={quoteattr(e.id)}>{escape(e.text)}</text>"
-        )
+        out.append(svg_text(e.text, e.position_mm, e.height_mm, e.rotation_deg, e.id))
     out.append("</g>")
     ordered = sorted(cut, key=lambda c: (c.layer != "inner", c.order))
     for layer, which in ((LAYER_CUT_INNER, "inner"), (LAYER_CUT_OUTER, "outer")):
