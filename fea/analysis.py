@@ -30,7 +30,13 @@ from platewright.fea.loadcases.mapping import MappedCase, map_case
 from platewright.fea.loadcases.parse import Component, LoadCase, LoadInput, parse_loads
 from platewright.fea.mesh.triangles import Mesh
 from platewright.fea.results import CaseFields, CaseResult, CollisionResult, LimitCheck, PlateAnalysis
-from platewright.fea.solve import ConvergenceError, MechanismError, UnderSupportedError, solve_system
+from platewright.fea.solve import (
+    ConvergenceError,
+    InaccurateSolveError,
+    MechanismError,
+    UnderSupportedError,
+    solve_system,
+)
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.model import Material, Plate
 from platewright.geometry.plate.mass import mass_properties
@@ -42,6 +48,7 @@ __all__ = [
     "analyse_plate",
     "total_vehicle_mass_g",
     "estimate_memory_bytes",
+    "support_layout",
 ]
 
 #: Memory per unknown of a solve (stiffness matrix plus sparse factor fill), bytes: an estimate
@@ -136,6 +143,26 @@ def element_matrices(plate: Plate, case: LoadCase) -> tuple[np.ndarray, bool]:
                                         plate.thickness_mm), True
 
 
+def support_layout(held_mm: np.ndarray) -> str:
+    """Where the held points (k, 2) float mm lie, in words, when that explains a free motion:
+    "every support acts at one point [x, y] mm" or "every support lies on one line from [..] to
+    [..] mm"; "" when they are spread over an area (or there are none)."""
+    pts = np.unique(np.asarray(held_mm, dtype=float).reshape(-1, 2), axis=0)
+    if len(pts) == 0:
+        return ""
+    centre = pts.mean(axis=0)
+    spread = float(np.abs(pts - centre).max())
+    if spread <= 1e-9 * max(1.0, float(np.abs(centre).max())) or len(pts) == 1:
+        return f"every support acts at one point [{centre[0]:.4g}, {centre[1]:.4g}] mm"
+    _, sv, vt = np.linalg.svd(pts - centre, full_matrices=False)
+    if sv[-1] <= 1e-9 * sv[0]:
+        t = (pts - centre) @ vt[0]
+        a, b = centre + t.min() * vt[0], centre + t.max() * vt[0]
+        return (f"every support lies on one line, from [{a[0]:.4g}, {a[1]:.4g}] to "
+                f"[{b[0]:.4g}, {b[1]:.4g}] mm")
+    return ""
+
+
 def _split_t6(tri6: np.ndarray) -> np.ndarray:
     """Four linear triangles (4 m, 3) per six-node triangle (vertices, then midpoints 01, 12, 20)."""
     v0, v1, v2, m01, m12, m20 = tri6.T
@@ -180,6 +207,8 @@ def _solve_case(plate: Plate, case: LoadCase, mesh: Mesh, quad: QuadraticMesh | 
     t1 = time.perf_counter()
     args = (k, mapped.f, mapped.fixed_dofs, mapped.fixed_values)
     kw = {"rigid_modes": modes, "mode_names": names, "spring_matrix": mapped.spring_matrix}
+    nodes = mesh.nodes if bending else quad.nodes
+    dpn = 3 if bending else 2
     fell_back = False
     try:
         try:
@@ -191,20 +220,30 @@ def _solve_case(plate: Plate, case: LoadCase, mesh: Mesh, quad: QuadraticMesh | 
             fell_back = True
     except MechanismError as exc:
         path = f"{case.path}.supports"
-        raise DesignError(Problem(path, f"load case '{case.name}': {exc}",
-                                  line_of(path) if line_of else None)) from exc
+        part = nodes[np.unique(exc.part_dofs // dpn)] if exc.part_dofs.size else nodes
+        (x0, y0), (x1, y1) = part.min(axis=0), part.max(axis=0)
+        raise DesignError(Problem(path, f"load case '{case.name}': the part of the plate within "
+                                  f"x {x0:.4g}..{x1:.4g} mm, y {y0:.4g}..{y1:.4g} mm is joined "
+                                  "to the rest by no element and is free to move: "
+                                  f"{', '.join(exc.free_motions)}",
+                                  line_of(path) if line_of else None,
+                                  "support that part too, or join it to the plate")) from exc
     except UnderSupportedError as exc:
         path = f"{case.path}.supports"
+        where = support_layout(nodes[mapped.supported_nodes])
         raise DesignError(Problem(path, f"load case '{case.name}': the supports leave the plate "
-                                  f"free to move: {', '.join(exc.free_motions)}",
+                                  f"free to move: {', '.join(exc.free_motions)}"
+                                  + (f" ({where})" if where else ""),
                                   line_of(path) if line_of else None,
                                   "add a support (fixed or elastic) that blocks "
                                   + ("this motion" if len(exc.free_motions) == 1 else
                                      "these motions"))) from exc
-    except ConvergenceError as exc:
+    except ConvergenceError as exc:  # includes InaccurateSolveError from the direct solver
+        hint = ("try another mesh_size_mm; this is a numerical failure of the solver, not a "
+                "problem with the supports" if isinstance(exc, InaccurateSolveError) else
+                "try method='direct' or a larger mesh_size_mm")
         raise DesignError(Problem(case.path, f"load case '{case.name}': {exc}",
-                                  line_of(case.path) if line_of else None,
-                                  "try method='direct' or a larger mesh_size_mm")) from exc
+                                  line_of(case.path) if line_of else None, hint)) from exc
     return sol, t1 - t0, time.perf_counter() - t1, fell_back
 
 
@@ -313,6 +352,7 @@ def _run_case(plate: Plate, case: LoadCase, meshes: _PlateMeshes, size_mm: float
         limit_mm=limit_mm, span_mm=span, checks=checks, passes=all(c.passes for c in checks),
         dofs=sol.dofs, free_dofs=sol.free_dofs, equilibrium_residual=sol.equilibrium_residual,
         method=sol.method, iterations=sol.iterations, mesh_quality=mesh.quality(),
+        solver_backward_error=sol.backward_error,
         nodes=len(nodes), elements=mesh.n_triangles, mesh_size_mm=h,
         applied_force_n=mapped.applied_n, reaction_force_n=reaction, isotropic_properties=iso,
         collision=coll, notes=tuple(notes), timings_s=timings, fields=fields)

@@ -99,7 +99,8 @@ class CaseResult:
     nodes, elements, mesh_size_mm. applied_force_n (Fx, Fy, Fz) and reaction_force_n, N.
     isotropic_properties: True when isotropic E and nu were used (no orthotropic data).
     collision: CollisionResult or None. notes: remarks. timings_s: stage -> seconds.
-    fields: CaseFields for plots and exports.
+    fields: CaseFields for plots and exports. solver_backward_error: normwise backward error
+    of the linear solve (dimensionless, ~1e-16 for a stable solve; see fea.solve).
     """
 
     name: str
@@ -132,6 +133,7 @@ class CaseResult:
     notes: tuple[str, ...]
     timings_s: dict[str, float] = field(default_factory=dict)
     fields: CaseFields | None = field(default=None, repr=False, compare=False)
+    solver_backward_error: float = 0.0
 
     def to_report(self) -> dict[str, Any]:
         """JSON-ready dict for ``plates[].fea.load_cases[]`` of report.json (schema 1)."""
@@ -153,7 +155,8 @@ class CaseResult:
             "dofs": self.dofs,
             "equilibrium_residual": _num(self.equilibrium_residual, 3),
             "solver": {"method": self.method, "iterations": self.iterations,
-                       "free_dofs": self.free_dofs},
+                       "free_dofs": self.free_dofs,
+                       "backward_error": _num(self.solver_backward_error, 3)},
             "mesh": {"nodes": self.nodes, "elements": self.elements,
                      "size_mm": _num(self.mesh_size_mm),
                      "min_angle_deg": _num(q.min_angle_deg, 4),
