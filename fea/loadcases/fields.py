@@ -65,6 +65,18 @@ CASE = {
                           gt=0.0),
     "grain_deg": Spec("number", "face grain direction from +x for sheets with orthotropic data "
                        "(default: along x)", "degrees"),
+    "error_target_pct": Spec("number", "target of the estimated discretisation error of the "
+                              "largest deflection and of the design stress: the mesh is refined "
+                              "(first everywhere, then where the design stress stands) until "
+                              "both estimates are below it or max_refinements is used up", "%",
+                              default=1.0, gt=0.0),
+    "max_refinements": Spec("number", "largest number of refinement passes after the first "
+                             "solve (0: solve once; the deflection's error is then not "
+                             "estimated)", default=4, ge=0.0),
+    "exclusion_radius_mm": Spec("number", "radius of the disc around each singular point (a "
+                                 "sharp inside corner, the end of a held stretch of edge, a "
+                                 "point support or point load) that the design stress leaves "
+                                 "out (default: the sheet thickness)", "mm", gt=0.0),
 }
 SUPPORT = {
     "at": Spec("text", "bores: the rims of holes; mount: every hole of a mount; edge: an edge "

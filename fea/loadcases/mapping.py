@@ -67,7 +67,8 @@ class MappedCase:
     f: (n_dofs,) float loads (N, N mm). fixed_dofs: (p,) int; fixed_values: (p,) float.
     spring_matrix: (n_dofs, n_dofs) CSR (N/mm, N mm/rad) or None. supported_nodes: (s,) int
     nodes held by any support. applied_n: total applied force (Fx, Fy, Fz), N. collision:
-    CollisionLoad or None. notes: remarks for the report (e.g. point loads).
+    CollisionLoad or None. notes: remarks for the report (e.g. point loads). point_loads: how
+    each point load was applied: {asked_mm, applied_mm, offset_mm, how}.
     """
 
     f: np.ndarray
@@ -78,6 +79,7 @@ class MappedCase:
     applied_n: tuple[float, float, float]
     collision: CollisionLoad | None
     notes: tuple[str, ...]
+    point_loads: tuple[dict, ...] = ()
 
 
 def collision_force_n(speed_m_s: float, stiffness_n_per_mm: float, mass_g: float) -> float:
@@ -116,6 +118,7 @@ class _Mapper:
         self.springs: list[sp.csr_matrix] = []
         self.held: list[np.ndarray] = []
         self.notes: list[str] = []
+        self.point_loads: list[dict] = []
         self.applied = np.zeros(3)
 
     def fail(self, path: str, message: str, hint: str = "") -> DesignError:
@@ -196,8 +199,18 @@ class _Mapper:
         else:
             self.f[2 * k: 2 * k + 2] += force[:2]
         self.applied += force
-        self.notes.append(f"point load at [{p[0]:g}, {p[1]:g}] mm: the stress next to it "
-                          "grows as the mesh is refined; give a footprint or a feature")
+        at = self.mesh.nodes[k]
+        offset = float(np.hypot(at[0] - p[0], at[1] - p[1]))
+        how = ("on a mesh node placed at the asked point" if offset <= 1e-9 * max(1.0, abs(p[0]),
+                                                                                  abs(p[1]))
+               else f"on the nearest mesh node, {offset:.3g} mm from the asked point (the point "
+                    "lies in a hole or within a tiny distance of the edge)")
+        self.point_loads.append({"asked_mm": [float(p[0]), float(p[1])],
+                                 "applied_mm": [float(at[0]), float(at[1])],
+                                 "offset_mm": offset, "how": how})
+        self.notes.append(f"point load at [{p[0]:g}, {p[1]:g}] mm applied {how}; the stress "
+                          "next to it grows as the mesh is refined (left out of the design "
+                          "stress), give a footprint or a feature for a design value there")
 
     def area(self, sel: np.ndarray, force: np.ndarray) -> None:
         """A total force (3,) N spread evenly over the selected elements (m,) bool."""
@@ -390,4 +403,5 @@ def map_case(
         spring = sp.csr_matrix(spring)
     held = np.unique(np.concatenate(mp.held)) if mp.held else np.zeros(0, np.int64)
     return MappedCase(mp.f, fixed, np.zeros(fixed.shape), spring, held,
-                      tuple(float(v) for v in mp.applied), coll, tuple(dict.fromkeys(mp.notes)))
+                      tuple(float(v) for v in mp.applied), coll, tuple(dict.fromkeys(mp.notes)),
+                      tuple(mp.point_loads))

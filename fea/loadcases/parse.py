@@ -177,9 +177,17 @@ def _read_case(rd: Reader, raw: Any, path: str) -> tuple[LoadCase | None, bool]:
     self_weight = d["self_weight"]
     if self_weight is None:
         self_weight = d["family"] == "bending" or g_dir is not None
+    refinements = d.get("max_refinements")
+    if refinements is not None and float(refinements) != int(refinements):
+        rd.fail(f"{path}.max_refinements", f"max_refinements must be a whole number, got "
+                f"{refinements:g}", "e.g. 4; 0 solves once")
+        refinements = None
     case = LoadCase(d["name"], d["plate"], d["family"], float(d["g_factor"]), bool(self_weight),
                     g_dir, tuple(s for s in supports if s), tuple(x for x in loads if x), coll,
-                    lim, d["mesh_size_mm"], d["grain_deg"], path)
+                    lim, d["mesh_size_mm"], d["grain_deg"], path,
+                    None if d.get("error_target_pct") is None else float(d["error_target_pct"]),
+                    None if refinements is None else int(refinements),
+                    d.get("exclusion_radius_mm"))
     return case, len(rd.problems) == before
 
 

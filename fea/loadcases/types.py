@@ -175,6 +175,10 @@ class LoadCase:
     along -z). supports, loads: tuples. collision: Collision or None. limits: Limits.
     mesh_size_mm: target element size, mm (None: from the plate size). grain_deg: face grain
     direction from +x, degrees, for sheets with orthotropic data (None: along x). path.
+    error_target_pct: target of the estimated error of the reported peaks, % (None: 1).
+    max_refinements: refinement passes allowed after the first solve (None: the default, 4).
+    exclusion_radius_mm: disc around each singular point left out of the design stress, mm
+    (None: the sheet thickness).
     """
 
     name: str
@@ -190,6 +194,9 @@ class LoadCase:
     mesh_size_mm: float | None
     grain_deg: float | None
     path: str
+    error_target_pct: float | None = None
+    max_refinements: int | None = None
+    exclusion_radius_mm: float | None = None
 
 
 @dataclass(frozen=True)
