@@ -41,8 +41,8 @@ from platewright.fea.results import (
 from platewright.fea.singular import (
     load_region_ends,
     point_positions,
+    region_ends,
     singular_points,
-    support_region_ends,
 )
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.model import Material, Plate
@@ -240,7 +240,9 @@ def _run_case(plate: Plate, case: LoadCase, meshes: _PlateMeshes, size_mm: float
     def fixed_points(rings) -> np.ndarray:
         """Mesh nodes wanted: point supports and loads, and where held or loaded stretches
         of edge end on these rings (so a support or edge load starts exactly there)."""
-        ends = [p for p, _ in support_region_ends(rings, plate, case)]
+        ends = [p for s in case.supports if s.at == "edge"
+                for p in region_ends(rings, plate, s.features[0] if s.features else None,
+                                     s.region)]
         return np.array(sup_pts + load_pts + ends + load_region_ends(rings, plate, case),
                         dtype=float).reshape(-1, 2)
 

@@ -142,7 +142,9 @@ def support_region_ends(rings: Sequence[TaggedRing], plate: Plate, case: LoadCas
     mm (see region_ends); the text names the support."""
     out: list[tuple[tuple[float, float], str]] = []
     for k, s in enumerate(case.supports):
-        if s.at == "edge":
+        # A mirror line, or a roller that lets the edge slide, leaves no singularity at its end.
+        if s.at == "edge" and s.condition != "symmetry" and (
+                case.family == "bending" or len(s.directions) == 2):
             label = f"{s.condition} edge (supports[{k}])"
             out += [(p, label) for p in region_ends(rings, plate, s.features[0] if s.features
                                                     else None, s.region)]

@@ -219,3 +219,101 @@ def test_hole_peak_within_one_percent_of_the_published_finite_width_factor(d_ove
     assert math.hypot(x - length / 2, y) == pytest.approx(d_over_w * w / 2, rel=1e-3)
     assert abs(y) == pytest.approx(d_over_w * w / 2, rel=0.02)  # across the load
     assert r.error_estimate.converged
+
+
+# ---------------------------------------------------------------- rollers and symmetry lines
+
+
+def test_rollers_give_the_uniform_bar_exactly():
+    # A strip on a roller at its left end (held along x only) and one point held along y,
+    # pulled by F on its right end: uniform tension sigma = F / (W t), end displacement
+    # u = F L / (E W t), contraction v = -nu sigma / E * y (elementary elasticity; the
+    # quadratic elements represent this linear field exactly).
+    length, w, f = 100.0, 20.0, 60.0
+    plate = make_plate(rect_contour(length, w, (length / 2, 0.0)), thickness_mm=T_MM,
+                       name="bar")
+    r = _run(plate, {"family": "in_plane",
+                     "supports": [{"at": "edge", "condition": "pinned", "directions": ["x"],
+                                   "region_mm": {"x_max": 0}},
+                                  {"at": "points", "points_mm": [[0, 0]], "directions": ["y"]}],
+                     "loads": [{"type": "edge", "region_mm": {"x_min": length},
+                                "force_n": [f, 0]}]})
+    e, nu = plate.material.youngs_modulus_mpa, plate.material.poisson_ratio
+    sigma = f / (w * T_MM)
+    assert r.max_von_mises_mpa == pytest.approx(sigma, rel=1e-6)
+    u, v = sigma * length / e, nu * sigma / e * (w / 2)
+    assert r.max_deflection_mm == pytest.approx(math.hypot(u, v), rel=1e-6)
+    # A roller end is no singular point; the single point support is.
+    assert [p.kind for p in r.singular_points] == ["point support"]
+    assert r.reaction_force_n[0] == pytest.approx(-f, rel=1e-9)
+
+
+def test_symmetry_lines_halve_the_hole_model():
+    # The strip of the hole test cut along its axis: y = 0 becomes a mirror line (no movement
+    # across it), the left end a roller. The peak is the same published factor, 1 %.
+    w, f, d = 40.0, 60.0, 12.0
+    length = 8 * w
+    hole = round_hole("hole", (length / 2, 0.0), d)
+    plate = make_plate(rect_contour(length, w / 2, (length / 2, w / 4)), (hole,),
+                       thickness_mm=T_MM, kerf_mm=0.0, name="half")
+    r = _run(plate, {"family": "in_plane",
+                     "supports": [{"at": "edge", "condition": "symmetry",
+                                   "region_mm": {"y_max": 0}},
+                                  {"at": "edge", "condition": "pinned", "directions": ["x"],
+                                   "region_mm": {"x_max": 0}}],
+                     "loads": [{"type": "edge", "region_mm": {"x_min": length},
+                                "force_n": [f, 0]}]})
+    g = 1 - d / w
+    ktg = 0.284 + 2 / g - 0.600 * g + 1.32 * g**2  # Pilkey and Pilkey, as above
+    assert r.max_von_mises_mpa / (f / (w / 2 * T_MM)) == pytest.approx(ktg, rel=0.01)
+    assert r.singular_points == ()
+
+
+def test_bending_symmetry_lines_give_the_quarter_plate():
+    # Quarter of a simply supported square of side a = 100 mm (mirror lines x = 0 and y = 0):
+    # centre deflection 0.00406 q a^4 / D (Timoshenko and Woinowsky-Krieger, table 8).
+    q = 1e-3
+    plate = _with_nu(make_plate(rect_contour(50.0, 50.0, (25.0, 25.0)), thickness_mm=T_MM,
+                                name="quarter"), 0.3)
+    r = _run(plate, {"family": "bending",
+                     "supports": [{"at": "edge", "condition": "pinned", "region_mm": {"x_min": 50}},
+                                  {"at": "edge", "condition": "pinned", "region_mm": {"y_min": 50}},
+                                  {"at": "edge", "condition": "symmetry", "region_mm": {"x_max": 0}},
+                                  {"at": "edge", "condition": "symmetry",
+                                   "region_mm": {"y_max": 0}}],
+                     "loads": [{"type": "pressure", "pressure_mpa": q}]})
+    d = plate.material.youngs_modulus_mpa * T_MM**3 / (12 * (1 - 0.3**2))
+    assert r.max_deflection_mm == pytest.approx(0.00406 * q * 100.0**4 / d, rel=0.01)
+    assert r.at_mm == pytest.approx((0.0, 0.0), abs=1e-9)
+
+
+@pytest.mark.parametrize(("family", "support", "field", "words"), [
+    ("bending", {"at": "edge", "condition": "pinned", "directions": ["x"]}, "directions",
+     "in-plane"),
+    ("in_plane", {"at": "points", "points_mm": [[0, 0]], "condition": "symmetry"}, "condition",
+     "line"),
+    ("in_plane", {"at": "edge", "condition": "pinned", "directions": ["z"]}, "directions",
+     "[x], [y]"),
+])
+def test_bad_roller_and_symmetry_input_names_the_field(family, support, field, words):
+    from platewright.geometry.errors import DesignError
+
+    plate = make_plate(rect_contour(50.0, 50.0), thickness_mm=T_MM, name="p")
+    with pytest.raises(DesignError) as info:
+        _run(plate, {"family": family, "supports": [support],
+                     "loads": [{"type": "edge", "force_n": [0, 0, -1] if family == "bending"
+                                else [1, 0], "region_mm": {"x_min": 25}}]})
+    (p,) = info.value.problems
+    assert p.path == f"load_cases[0].supports[0].{field}" and words in p.message
+
+
+def test_symmetry_line_must_be_straight_along_an_axis():
+    from platewright.geometry.errors import DesignError
+
+    plate = make_plate(rect_contour(50.0, 50.0), thickness_mm=T_MM, name="p")
+    with pytest.raises(DesignError) as info:
+        _run(plate, {"family": "in_plane",
+                     "supports": [{"at": "edge", "condition": "symmetry"}],
+                     "loads": [{"type": "edge", "force_n": [1, 0], "region_mm": {"x_min": 25}}]})
+    (p,) = info.value.problems
+    assert p.path == "load_cases[0].supports[0].feature" and "along x or along y" in p.message

@@ -109,10 +109,20 @@ def _read_support(rd: Reader, raw: Any, path: str) -> Support | None:
     if at == "points" and d.get("points_mm") is None:
         rd.fail(path, "a support at points needs 'points_mm'", "[[x, y], ...] in mm")
         return None
+    if at == "points" and d.get("condition") == "symmetry":
+        rd.fail(f"{path}.condition", "symmetry is a line: use it on an edge",
+                "{at: edge, condition: symmetry, region_mm: {...}}")
+        return None
+    directions = d.get("directions") or ("x", "y")
+    bad = [v for v in directions if v not in ("x", "y")]
+    if bad or len(set(directions)) != len(directions):
+        rd.fail(f"{path}.directions", f"directions must be [x], [y] or [x, y], got "
+                f"{list(directions)}", "x and y are the plate's axes")
+        return None
     return Support(at, feats, mode, float(stiff or 0.0),
                    float(d.get("rotational_stiffness_n_mm_per_rad") or 0.0),
                    d.get("condition") or "pinned", d.get("region_mm"),
-                   tuple(d.get("points_mm") or ()), path)
+                   tuple(d.get("points_mm") or ()), path, tuple(sorted(directions)))
 
 
 def _read_load(rd: Reader, raw: Any, path: str) -> Load | None:

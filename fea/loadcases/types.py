@@ -88,8 +88,10 @@ class Support:
     stiffness_n_per_mm: stiffness of an elastic support at EACH named feature, N/mm (vertical
     in bending; in each in-plane direction in in_plane), shared along the feature's rim by edge
     length. rotational_stiffness_n_mm_per_rad: tilt stiffness of each, bending, N mm/rad.
-    condition: clamped | pinned (edge, points). region: part of the edge (None: all of it).
-    points_mm: support points, mm. path: field path.
+    condition: clamped | pinned (edge, points) | symmetry (edge: a mirror line). region: part
+    of the edge (None: all of it). points_mm: support points, mm. path: field path.
+    directions: in_plane displacement components held, a subset of ("x", "y"); one makes a
+    roller.
     """
 
     at: str
@@ -101,6 +103,7 @@ class Support:
     region: Box | None
     points_mm: tuple[tuple[float, float], ...]
     path: str
+    directions: tuple[str, ...] = ("x", "y")
 
 
 @dataclass(frozen=True)
