@@ -129,9 +129,11 @@ class ErrorEstimate:
                 "target_pct": _num(self.target_pct), "converged": self.converged,
                 "passes": self.passes, "unknowns": list(self.unknowns),
                 "smallest_element_mm": _num(self.smallest_element_mm, 3),
-                "method": "stress: superconvergent patch recovery (Zienkiewicz and Zhu 1992) "
-                          "pointwise gap and change between meshes; deflection: change "
-                          "between meshes a factor sqrt(2) apart (Richardson, order 2)",
+                "method": "stress: superconvergent patch recovery (Zienkiewicz and Zhu 1992), "
+                          "its pointwise gap and the change between meshes refined where the "
+                          "stress stands; deflection: change between meshes a factor sqrt(2) "
+                          "apart (Richardson, order 2); changes times 1.5 (Roache's grid "
+                          "convergence index)",
                 "stop_reason": self.stop_reason}
 
 

@@ -30,6 +30,7 @@ from platewright.geometry.plate.cutpaths import part_contours
 __all__ = [
     "SingularPoint",
     "KINDS",
+    "held_curve_changes",
     "reentrant_corners",
     "singular_points",
     "load_region_ends",
@@ -40,7 +41,7 @@ __all__ = [
 ]
 
 #: Kinds of singular point, in report order.
-KINDS = ("re-entrant corner", "support end", "point support", "point load")
+KINDS = ("re-entrant corner", "support end", "held curve change", "point support", "point load")
 #: A vertex counts as a corner when the edge direction turns by more than this, degrees.
 _CORNER_TURN_DEG = 2.0
 
@@ -96,6 +97,62 @@ def reentrant_corners(plate: Plate, region: shapely.Polygon | None = None,
                 if region is not None and region.boundary.distance(shapely.Point(at)) > tol_mm:
                     continue
                 out.append((at, 180.0 - turn))
+    return out
+
+
+def _curvature(p0: np.ndarray, p1: np.ndarray, bulge: float) -> float:
+    """Signed curvature (1/mm) of a line (0) or bulge arc (left turn positive)."""
+    if bulge == 0.0:
+        return 0.0
+    chord = float(np.hypot(*(p1 - p0)))
+    theta = 4.0 * math.atan(bulge)
+    return 2.0 * math.sin(theta / 2.0) / chord
+
+
+def held_curve_changes(plate: Plate, region: shapely.Polygon, case: LoadCase
+                       ) -> list[tuple[tuple[float, float], str]]:
+    """Where a simply supported (pinned, or held rim) boundary of a bending case changes its
+    curvature without a corner - a straight stretch running into an arc, as at the ends of a
+    slot: [((x, y) mm, text)].
+
+    On a boundary held against deflection but free to turn, Kirchhoff's conditions tie the
+    bending moment to the boundary's curvature, so a jump in curvature makes the ideal stress
+    grow without bound there (slowly, like a logarithm; seen in this code's own refinement
+    studies). Clamped boundaries and in-plane cases have no such point.
+    """
+    if case.family != "bending":
+        return []
+    out: list[tuple[tuple[float, float], str]] = []
+    for k, s in enumerate(case.supports):
+        soft = (s.at == "edge" and s.condition == "pinned") or (
+            s.at in ("bores", "mount") and s.mode == "rigid")
+        if not soft:
+            continue
+        name = s.features[0] if s.at in ("edge", "mount") and s.features else None
+        names = s.features if s.at == "bores" else (name,)
+        ids = {f.id for n in names for f in resolve_feature(plate, n)}
+        for fid, contour in part_contours(plate):
+            if fid not in ids:
+                continue
+            segs = list(contour.segments())
+            for i in range(len(segs)):
+                p0, p1, b = segs[i - 1]
+                q0, q1, c = segs[i]
+                k0 = _curvature(np.asarray(p0, float), np.asarray(p1, float), b)
+                k1 = _curvature(np.asarray(q0, float), np.asarray(q1, float), c)
+                _, t_in = _tangents(np.asarray(p0, float), np.asarray(p1, float), b)
+                t_out, _ = _tangents(np.asarray(q0, float), np.asarray(q1, float), c)
+                turn = abs(math.degrees(math.atan2(t_in[0] * t_out[1] - t_in[1] * t_out[0],
+                                                   float(t_in @ t_out))))
+                if turn > _CORNER_TURN_DEG or abs(k0 - k1) <= 1e-9 * (abs(k0) + abs(k1) + 1e-12):
+                    continue
+                at = (float(q0[0]), float(q0[1]))
+                if region.boundary.distance(shapely.Point(at)) > 1e-6:
+                    continue
+                if s.region is not None and not s.region.contains(np.array([at]))[0]:
+                    continue
+                out.append((at, f"{'pinned edge' if s.at == 'edge' else 'held rim'} "
+                                f"(supports[{k}])"))
     return out
 
 
@@ -202,6 +259,13 @@ def singular_points(plate: Plate, case: LoadCase, components: Mapping[str, Compo
             f"end of the {label}: where a held edge meets a free one the ideal stress can be "
             "infinite (in plane it is), so the value depends on the mesh; a real clamp gives a "
             "little, so the design stress is read just outside"))
+    for at, label in held_curve_changes(plate, region, case):
+        out.append(SingularPoint(
+            "held curve change", at,
+            f"on the {label} a straight stretch runs into a curve here: on a boundary held "
+            "against deflection but free to turn, the ideal bending stress grows without bound "
+            "(slowly) where the curvature jumps, so the value depends on the mesh; a clamp or a "
+            "washer that also stops the turning removes it"))
     sup, loads = point_positions(case, components)
     for at in sup:
         out.append(SingularPoint(
