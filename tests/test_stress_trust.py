@@ -11,7 +11,7 @@ from types import SimpleNamespace
 
 import numpy as np
 import pytest
-from plate_factory import make_plate, rect_contour, round_hole
+from plate_factory import make_plate, rect_contour, round_hole, slot_feature
 
 from platewright.fea.analysis import analyse_design
 from platewright.geometry.plate.curves import Contour
@@ -317,3 +317,24 @@ def test_symmetry_line_must_be_straight_along_an_axis():
                      "loads": [{"type": "edge", "force_n": [1, 0], "region_mm": {"x_min": 25}}]})
     (p,) = info.value.problems
     assert p.path == "load_cases[0].supports[0].feature" and "along x or along y" in p.message
+
+
+def test_held_slot_ends_are_singular_points_and_the_design_stress_settles():
+    # A slot held against deflection on its rim (a strap or bolt slot) in a pressed plate: where
+    # the straight sides run into the end arcs the curvature of the held boundary jumps, and the
+    # Kirchhoff stress there keeps growing under refinement (measured, slowly); the four
+    # junctions are listed and the design stress outside them settles.
+    slot = slot_feature("s", (0.0, 0.0), 3.0, 9.0, 90.0)
+    plate = make_plate(rect_contour(60.0, 60.0), (slot,), thickness_mm=T_MM, kerf_mm=0.0,
+                       name="p")
+    case = {"family": "bending",
+            "supports": [{"at": "bores", "features": ["s"]},
+                         {"at": "edge", "condition": "pinned"}],
+            "loads": [{"type": "pressure", "pressure_mpa": 1e-2}]}
+    coarse, fine = _run(plate, case), _run(plate, case, size_mm=_default_size(plate) / 4)
+    for r in (coarse, fine):
+        pts = np.array(sorted(p.at_mm for p in r.singular_points
+                              if p.kind == "held curve change"))
+        np.testing.assert_allclose(pts, [(-1.5, -4.5), (-1.5, 4.5), (1.5, -4.5), (1.5, 4.5)],
+                                   atol=1e-9)
+    assert fine.max_von_mises_mpa == pytest.approx(coarse.max_von_mises_mpa, rel=0.02)
