@@ -19,18 +19,31 @@ from typing import Any
 import numpy as np
 from scipy.spatial import cKDTree
 
-from platewright.fea.assembly import assemble_matrix, element_dofs
-from platewright.fea.elements import bending as dkt
-from platewright.fea.elements import membrane
-from platewright.fea.elements.bending_rigid import BENDING_MODE_NAMES, bending_rigid_modes
-from platewright.fea.elements.constitutive import material_plane_stress
-from platewright.fea.elements.membrane_rigid import MEMBRANE_MODE_NAMES, membrane_rigid_modes
-from platewright.fea.elements.quadratic import QuadraticMesh, quadratic_mesh
-from platewright.fea.loadcases.mapping import MappedCase, map_case
+from platewright.fea.adaptive import (
+    DEFAULT_MAX_REFINEMENTS,
+    DEFAULT_TARGET_PCT,
+    OverBudget,
+    converge,
+)
+from platewright.fea.case_pass import PassResult, element_matrices, run_pass, support_layout
 from platewright.fea.loadcases.parse import Component, LoadCase, LoadInput, parse_loads
 from platewright.fea.mesh.triangles import Mesh
-from platewright.fea.results import CaseFields, CaseResult, CollisionResult, LimitCheck, PlateAnalysis
-from platewright.fea.solve import ConvergenceError, MechanismError, UnderSupportedError, solve_system
+from platewright.fea.results import (
+    CaseFields,
+    CaseResult,
+    CollisionResult,
+    ErrorEstimate,
+    LimitCheck,
+    MaterialUsed,
+    PlateAnalysis,
+    SingularValue,
+)
+from platewright.fea.singular import (
+    load_region_ends,
+    point_positions,
+    region_ends,
+    singular_points,
+)
 from platewright.geometry.errors import DesignError, Problem
 from platewright.geometry.model import Material, Plate
 from platewright.geometry.plate.mass import mass_properties
@@ -41,7 +54,9 @@ __all__ = [
     "analyse_design",
     "analyse_plate",
     "total_vehicle_mass_g",
+    "element_matrices",
     "estimate_memory_bytes",
+    "support_layout",
 ]
 
 #: Memory per unknown of a solve (stiffness matrix plus sparse factor fill), bytes: an estimate
@@ -75,35 +90,57 @@ def estimate_memory_bytes(area_mm2: float, size_mm: float, family: str) -> tuple
 
 
 class _PlateMeshes:
-    """One mesh per element size of a plate (and its quadratic version), built on demand."""
+    """Meshes of a plate, built on demand and kept: boundary rings per (element size, local
+    size points), one mesh per (size, fixed points, local size points)."""
+
+    #: Growth of the local sizes away from a refinement point, mm per mm (the mesher's default).
+    GRADING = 0.3
 
     def __init__(self, plate: Plate) -> None:
         self.plate = plate
-        self._lin: dict[float, tuple[Mesh, tuple[np.ndarray, ...]]] = {}
-        self._quad: dict[float, QuadraticMesh] = {}
+        self._rings: dict[tuple, list] = {}
+        self._lin: dict[tuple, Mesh] = {}
 
-    def rings(self, size_mm: float | None):
-        from platewright.fea.mesh.plate_input import (
-            plate_rings,  # written alongside; imported when first needed
-        )
+    def rings(self, size_mm: float, size_points: np.ndarray | None = None):
+        """The plate's tagged boundary rings sampled for ``size_mm`` and the local sizes
+        ``size_points`` (k, 3) [x, y, size] mm (fea.mesh.plate_input)."""
+        local = np.zeros((0, 3)) if size_points is None else np.asarray(size_points, float)
+        key = (size_mm, local.tobytes())
+        if key not in self._rings:
+            from platewright.fea.mesh.plate_input import plate_rings
 
-        return plate_rings(self.plate, size_mm)
+            size_at = None
+            if len(local):
+                def size_at(xy: np.ndarray) -> np.ndarray:
+                    d = np.hypot(xy[:, None, 0] - local[None, :, 0],
+                                 xy[:, None, 1] - local[None, :, 1])
+                    return (local[None, :, 2] + self.GRADING * d).min(axis=1)
 
-    def linear(self, size_mm: float, max_nodes: int) -> tuple[Mesh, tuple[np.ndarray, ...], bool]:
-        if size_mm in self._lin:
-            return (*self._lin[size_mm], False)
+            self._rings[key] = plate_rings(self.plate, size_mm, size_at)
+        return self._rings[key]
+
+    def outline(self, size_mm: float, size_points: np.ndarray | None = None
+                ) -> tuple[np.ndarray, ...]:
+        """Boundary rings (outline first, then holes) as (k, 2) float arrays, mm."""
+        return tuple(np.asarray(r.points_mm, float)
+                     for r in sorted(self.rings(size_mm, size_points), key=lambda r: r.is_hole))
+
+    def linear(self, size_mm: float, max_nodes: int, fixed_mm: np.ndarray | None = None,
+               size_points: np.ndarray | None = None) -> tuple[Mesh, list, bool]:
+        """(mesh, rings, newly built) for an element size, with nodes at ``fixed_mm`` (p, 2)
+        and local refinement ``size_points`` (k, 3) [x, y, size], mm."""
+        fixed = np.zeros((0, 2)) if fixed_mm is None else np.asarray(fixed_mm, float)
+        local = np.zeros((0, 3)) if size_points is None else np.asarray(size_points, float)
+        key = (size_mm, fixed.tobytes(), local.tobytes())
+        rings = self.rings(size_mm, local)
+        if key in self._lin:
+            return self._lin[key], rings, False
         from platewright.fea.mesh.mesher import mesh_rings
 
-        rings = self.rings(size_mm)
-        mesh = mesh_rings(rings, size_mm, max_nodes=max_nodes)
-        outline = tuple(np.asarray(r.points_mm, float) for r in sorted(rings, key=lambda r: r.is_hole))
-        self._lin[size_mm] = (mesh, outline)
-        return mesh, outline, True
-
-    def quadratic(self, size_mm: float) -> QuadraticMesh:
-        if size_mm not in self._quad:
-            self._quad[size_mm] = quadratic_mesh(self._lin[size_mm][0])
-        return self._quad[size_mm]
+        mesh = mesh_rings(rings, size_mm, max_nodes=max_nodes, fixed_points_mm=fixed,
+                          size_points=local, grading=self.GRADING)
+        self._lin[key] = mesh
+        return mesh, rings, True
 
 
 def _default_size_mm(plate: Plate) -> float:
@@ -114,33 +151,6 @@ def _default_size_mm(plate: Plate) -> float:
 def _is_wood(m: Material) -> bool:
     text = f"{m.key} {m.name}".lower()
     return any(w in text for w in _WOOD_WORDS)
-
-
-def element_matrices(plate: Plate, case: LoadCase) -> tuple[np.ndarray, bool]:
-    """Constitutive matrix (3, 3): D_b (N mm) in bending, plane-stress D (MPa) in plane; and
-    whether isotropic values were used."""
-    m = plate.material
-    if not m.laser_safe:
-        raise DesignError(Problem(case.path, f"material '{m.key}' is refused: {m.refusal_reason}"))
-    # Grain not stated: isotropic values with the library's single modulus, which for wood-based
-    # sheet is the weaker (across-grain) direction (REFERENCE.md: use the weaker direction
-    # unless the design states the grain).
-    ortho = m.orthotropic if case.grain_deg is not None else None
-    angle = math.radians(case.grain_deg or 0.0)
-    if case.family == "in_plane":
-        return material_plane_stress(m, angle if ortho else None), ortho is None
-    if ortho:
-        return dkt.orthotropic_bending_matrix(ortho["E1_mpa"], ortho["E2_mpa"], ortho["nu12"],
-                                              ortho["G12_mpa"], plate.thickness_mm, angle), False
-    return dkt.isotropic_bending_matrix(m.youngs_modulus_mpa, m.poisson_ratio,
-                                        plate.thickness_mm), True
-
-
-def _split_t6(tri6: np.ndarray) -> np.ndarray:
-    """Four linear triangles (4 m, 3) per six-node triangle (vertices, then midpoints 01, 12, 20)."""
-    v0, v1, v2, m01, m12, m20 = tri6.T
-    return np.vstack([np.column_stack(t) for t in (
-        (v0, m01, m20), (m01, v1, m12), (m20, m12, v2), (m01, m12, m20))])
 
 
 def _limits(case: LoadCase, defl: float, vm: float, sf: float, span: float
@@ -165,62 +175,46 @@ def _limits(case: LoadCase, defl: float, vm: float, sf: float, span: float
     return tuple(checks), limit_mm
 
 
-def _solve_case(plate: Plate, case: LoadCase, mesh: Mesh, quad: QuadraticMesh | None,
-                mapped: MappedCase, dmat: np.ndarray, method: str, line_of) -> tuple:
-    bending = case.family == "bending"
-    t0 = time.perf_counter()
-    if bending:
-        ke = dkt.dkt_stiffness(mesh.nodes, mesh.triangles, dmat)
-        k = assemble_matrix(ke, element_dofs(mesh.triangles, 3), 3 * mesh.n_nodes)
-        modes, names = bending_rigid_modes(mesh.nodes), BENDING_MODE_NAMES
-    else:
-        k = membrane.assemble_stiffness(quad.nodes, quad.tri6, dmat, plate.thickness_mm)
-        modes = membrane_rigid_modes(quad.nodes, tuple(quad.nodes.mean(axis=0)))
-        names = MEMBRANE_MODE_NAMES
-    t1 = time.perf_counter()
-    args = (k, mapped.f, mapped.fixed_dofs, mapped.fixed_values)
-    kw = {"rigid_modes": modes, "mode_names": names, "spring_matrix": mapped.spring_matrix}
-    fell_back = False
-    try:
-        try:
-            sol = solve_system(*args, method=method, **kw)
-        except ConvergenceError:
-            if method != "auto":
-                raise
-            sol = solve_system(*args, method="direct", **kw)  # multigrid failed: factorise
-            fell_back = True
-    except MechanismError as exc:
-        path = f"{case.path}.supports"
-        raise DesignError(Problem(path, f"load case '{case.name}': {exc}",
-                                  line_of(path) if line_of else None)) from exc
-    except UnderSupportedError as exc:
-        path = f"{case.path}.supports"
-        raise DesignError(Problem(path, f"load case '{case.name}': the supports leave the plate "
-                                  f"free to move: {', '.join(exc.free_motions)}",
-                                  line_of(path) if line_of else None,
-                                  "add a support (fixed or elastic) that blocks "
-                                  + ("this motion" if len(exc.free_motions) == 1 else
-                                     "these motions"))) from exc
-    except ConvergenceError as exc:
-        raise DesignError(Problem(case.path, f"load case '{case.name}': {exc}",
-                                  line_of(case.path) if line_of else None,
-                                  "try method='direct' or a larger mesh_size_mm")) from exc
-    return sol, t1 - t0, time.perf_counter() - t1, fell_back
+def _memory_refusal(case: LoadCase, h: float, verts: int, dofs: int, need: int, limit: int,
+                    line_of) -> DesignError:
+    size_path = f"{case.path}.mesh_size_mm"
+    smallest = h * math.sqrt(need / limit)
+    return DesignError(Problem(size_path, f"load case '{case.name}': a mesh of {h:g} mm would "
+                               f"have about {verts:,} nodes and {dofs:,} unknowns, needing "
+                               f"about {need / 1e6:,.0f} MB (limit {limit / 1e6:,.0f} MB)",
+                               line_of(size_path) if line_of else None,
+                               f"use mesh_size_mm of at least {smallest:.3g}"))
 
 
-def _recover(plate: Plate, case: LoadCase, mesh: Mesh, quad: QuadraticMesh | None, u: np.ndarray,
-             dmat: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """(nodes (n, 2), triangles (m, 3), displacement (n, 3), von Mises (n,)) for results."""
-    if case.family == "bending":
-        mom = dkt.nodal_moments(mesh.nodes, mesh.triangles, dmat, u)
-        vm = dkt.von_mises_plane(dkt.surface_stresses(mom, plate.thickness_mm))
-        disp = np.zeros((mesh.n_nodes, 3))
-        disp[:, 2] = u[0::3]
-        return mesh.nodes, mesh.triangles, disp, vm
-    sig = membrane.nodal_stresses(quad.nodes, quad.tri6, u, dmat)
-    disp = np.zeros((len(quad.nodes), 3))
-    disp[:, 0], disp[:, 1] = u[0::2], u[1::2]
-    return quad.nodes, _split_t6(quad.tri6), disp, membrane.von_mises(sig)
+def _mesh_refusal(case: LoadCase, plate: Plate, h: float, exc: Exception, dpv: int, limit: int,
+                  line_of) -> DesignError:
+    size_path = f"{case.path}.mesh_size_mm"
+    found = re.search(r"about ([\d,]+) nodes", str(exc))
+    if found is None:
+        return DesignError(Problem(size_path, f"load case '{case.name}': cannot mesh plate "
+                                   f"'{plate.name}' at {h:g} mm: {exc}",
+                                   line_of(size_path) if line_of else None))
+    n = int(found.group(1).replace(",", ""))
+    return DesignError(Problem(size_path, f"load case '{case.name}': a mesh of {h:g} mm "
+                               f"would have about {n:,} nodes (refined at small features) and "
+                               f"{n * dpv:,} unknowns, needing about "
+                               f"{n * dpv * BYTES_PER_DOF / 1e6:,.0f} MB (limit "
+                               f"{limit / 1e6:,.0f} MB)",
+                               line_of(size_path) if line_of else None,
+                               "use a larger mesh_size_mm"))
+
+
+def _material_used(plate: Plate, case: LoadCase, iso: bool) -> MaterialUsed:
+    m = plate.material
+    ortho = None
+    e, nu = m.youngs_modulus_mpa, m.poisson_ratio
+    if not iso and m.orthotropic:
+        o = m.orthotropic
+        ortho = {k: float(o[k]) for k in ("E1_mpa", "E2_mpa", "nu12", "G12_mpa")}
+        ortho["grain_deg"] = float(case.grain_deg or 0.0)
+        e, nu = ortho["E1_mpa"], ortho["nu12"]
+    return MaterialUsed(m.key, m.name, float(e), float(nu), ortho, float(m.strength_mpa),
+                        m.strength_kind)
 
 
 def _run_case(plate: Plate, case: LoadCase, meshes: _PlateMeshes, size_mm: float | None,
@@ -241,65 +235,96 @@ def _run_case(plate: Plate, case: LoadCase, meshes: _PlateMeshes, size_mm: float
                                   f"use at most {across:.4g} mm (default: "
                                   f"{_default_size_mm(plate):.3g} mm)"))
     if need > memory_limit_bytes:
-        smallest = h * math.sqrt(need / memory_limit_bytes)
-        raise DesignError(Problem(size_path, f"load case '{case.name}': a mesh of {h:g} mm would "
-                                  f"have about {verts:,} nodes and {dofs:,} unknowns, needing "
-                                  f"about {need / 1e6:,.0f} MB (limit {memory_limit_bytes / 1e6:,.0f} "
-                                  "MB)", line_of(size_path) if line_of else None,
-                                  f"use mesh_size_mm of at least {smallest:.3g}"))
-    timings: dict[str, float] = {}
-    t0 = time.perf_counter()
+        raise _memory_refusal(case, h, verts, dofs, need, memory_limit_bytes, line_of)
     dpv = _DOFS_PER_VERTEX[case.family]
+    max_nodes = int(memory_limit_bytes // (BYTES_PER_DOF * dpv))
+    t_start = time.perf_counter()
+    timings = {"mesh": 0.0, "map": 0.0, "assemble": 0.0, "solve": 0.0, "recover": 0.0}
     try:
-        mesh, rings, fresh = meshes.linear(h, int(memory_limit_bytes // (BYTES_PER_DOF * dpv)))
+        rings0 = meshes.rings(h)
     except ValueError as exc:
-        found = re.search(r"about ([\d,]+) nodes", str(exc))
-        if found is None:
-            raise DesignError(Problem(size_path, f"load case '{case.name}': cannot mesh plate "
-                                      f"'{plate.name}' at {h:g} mm: {exc}",
-                                      line_of(size_path) if line_of else None)) from exc
-        n = int(found.group(1).replace(",", ""))
-        raise DesignError(Problem(size_path, f"load case '{case.name}': a mesh of {h:g} mm "
-                                  f"would have about {n:,} nodes (refined at small features) and "
-                                  f"{n * dpv:,} unknowns, needing about "
-                                  f"{n * dpv * BYTES_PER_DOF / 1e6:,.0f} MB (limit "
-                                  f"{memory_limit_bytes / 1e6:,.0f} MB)",
-                                  line_of(size_path) if line_of else None,
-                                  "use a larger mesh_size_mm")) from exc
-    need = mesh.n_nodes * _DOFS_PER_VERTEX[case.family] * BYTES_PER_DOF
-    if need > memory_limit_bytes:  # refinement at small features made more nodes than estimated
-        raise DesignError(Problem(size_path, f"load case '{case.name}': the mesh of {h:g} mm has "
-                                  f"{mesh.n_nodes:,} nodes, needing about {need / 1e6:,.0f} MB "
-                                  f"(limit {memory_limit_bytes / 1e6:,.0f} MB)",
-                                  line_of(size_path) if line_of else None,
-                                  "use a larger mesh_size_mm"))
-    quad = meshes.quadratic(h) if case.family == "in_plane" else None
-    timings["mesh"] = time.perf_counter() - t0 if fresh else 0.0
-    t0 = time.perf_counter()
-    mapped = map_case(case, plate, mesh, quad, components=components, vehicle_mass_g=vmass,
-                      line_of=line_of)
-    dmat, iso = element_matrices(plate, case)
-    timings["map"] = time.perf_counter() - t0
-    sol, timings["assemble"], timings["solve"], fell_back = _solve_case(
-        plate, case, mesh, quad, mapped, dmat, method, line_of)
-    t0 = time.perf_counter()
-    nodes, tris, disp, vm = _recover(plate, case, mesh, quad, sol.u, dmat)
-    defl = np.abs(disp[:, 2]) if case.family == "bending" else np.hypot(disp[:, 0], disp[:, 1])
-    i_d, i_s = int(np.argmax(defl)), int(np.argmax(vm))
-    max_vm = float(vm[i_s])
+        raise _mesh_refusal(case, plate, h, exc, dpv, memory_limit_bytes, line_of) from exc
+    singular = singular_points(plate, case, components, rings0)
+    radius = float(case.exclusion_radius_mm if case.exclusion_radius_mm is not None
+                   else plate.thickness_mm)
+    sup_pts, load_pts = point_positions(case, components)
+    def fixed_points(rings) -> np.ndarray:
+        """Mesh nodes wanted: point supports and loads, and where held or loaded stretches
+        of edge end on these rings (so a support or edge load starts exactly there)."""
+        ends = [p for s in case.supports if s.at == "edge"
+                for p in region_ends(rings, plate, s.features[0] if s.features else None,
+                                     s.region)]
+        return np.array(sup_pts + load_pts + ends + load_region_ends(rings, plate, case),
+                        dtype=float).reshape(-1, 2)
+
+    flags: dict[str, bool] = {"iso": True, "fell_back": False}
+    used: list[tuple[float, np.ndarray]] = []
+
+    def solve(size: float, size_points: np.ndarray) -> PassResult:
+        t0 = time.perf_counter()
+        try:
+            fixed = fixed_points(meshes.rings(size, size_points))
+            mesh, _rings, fresh = meshes.linear(size, max_nodes, fixed, size_points)
+        except ValueError as exc:
+            if size != h or len(size_points):
+                raise OverBudget(str(exc)) from exc
+            raise _mesh_refusal(case, plate, h, exc, dpv, memory_limit_bytes, line_of) from exc
+        if mesh.n_nodes * dpv * BYTES_PER_DOF > memory_limit_bytes:
+            if size != h or len(size_points):
+                raise OverBudget("refined mesh over the memory limit")
+            need_now = mesh.n_nodes * dpv * BYTES_PER_DOF
+            size_path = f"{case.path}.mesh_size_mm"
+            raise DesignError(Problem(size_path, f"load case '{case.name}': the mesh of {h:g} mm "
+                                      f"has {mesh.n_nodes:,} nodes, needing about "
+                                      f"{need_now / 1e6:,.0f} MB (limit "
+                                      f"{memory_limit_bytes / 1e6:,.0f} MB)",
+                                      line_of(size_path) if line_of else None,
+                                      "use a larger mesh_size_mm"))
+        timings["mesh"] += time.perf_counter() - t0 if fresh else 0.0
+        ps, iso, fell_back = run_pass(plate, case, mesh, components=components,
+                                      vehicle_mass_g=vmass, method=method, line_of=line_of)
+        flags["iso"] = iso
+        flags["fell_back"] |= fell_back
+        for k, v in ps.timings_s.items():
+            timings[k] = timings.get(k, 0.0) + v
+        used.append((size, size_points))
+        return ps
+
+    def fits(size: float) -> bool:
+        return estimate_memory_bytes(area, size, case.family)[2] <= memory_limit_bytes
+
+    max_ref = case.max_refinements if case.max_refinements is not None \
+        else DEFAULT_MAX_REFINEMENTS
+    target = case.error_target_pct if case.error_target_pct is not None else DEFAULT_TARGET_PCT
+    in_plane_points = [p for p in singular if case.family == "in_plane"
+                       and p.kind in ("point load", "point support")]
+    # Local refinement stops at a fraction of the sheet thickness: detail much finer says
+    # nothing a real cut edge keeps, and the stiffness of far smaller elements only spoils the
+    # conditioning (common practice). The plate element's moments converge at first order
+    # only, so bending may go four times finer than plane stress.
+    floor = plate.thickness_mm / (64.0 if case.family == "bending" else 16.0)
+    conv = converge(solve, h, singular, radius, deflection_excluded=in_plane_points,
+                    target_pct=target, max_refinements=max_ref, fits=fits, floor_mm=floor)
+    last = conv.passes[-1]
+    sol, mapped, mesh = last.solution, last.mapped, last.mesh
+    nodes, tris, disp, defl, vm = (last.nodes_mm, last.triangles, last.displacement_mm,
+                                   last.deflection_mm, last.von_mises_mpa)
+    dp, fp = conv.design[-1], conv.deflection[-1]
+    max_vm = dp.value
     strength = plate.material.strength_mpa
     sf = strength / max_vm if max_vm > 0 else math.inf
     held = nodes[mapped.supported_nodes]
     span = case.limits.span_mm
     if span is None:
         span = 2.0 * float(cKDTree(held).query(nodes)[0].max()) if len(held) else math.inf
-    checks, limit_mm = _limits(case, float(defl[i_d]), max_vm, sf, span)
+    checks, limit_mm = _limits(case, fp.value, max_vm, sf, span)
     dpn = 3 if case.family == "bending" else 2
     r = sol.reactions.reshape(-1, dpn)
     reaction = (0.0, 0.0, float(r[:, 0].sum())) if dpn == 3 else (
         float(r[:, 0].sum()), float(r[:, 1].sum()), 0.0)
+    iso = flags["iso"]
     notes = list(mapped.notes)
-    if fell_back:
+    if flags["fell_back"]:
         notes.append("multigrid did not converge; the system was solved by direct factorisation")
     if iso and plate.material.orthotropic and case.grain_deg is None:
         notes.append(f"{plate.material.name}: grain direction not given (grain_deg), so isotropic "
@@ -308,24 +333,44 @@ def _run_case(plate: Plate, case: LoadCase, meshes: _PlateMeshes, size_mm: float
     elif iso and _is_wood(plate.material):
         notes.append(f"{plate.material.name}: isotropic E and nu were used (no orthotropic data); "
                      "wood-based sheet is stiffer along the face grain than across it")
+    tree = cKDTree(nodes)
+    sing = tuple(SingularValue(p.kind, p.at_mm, float(last.raw_max_mpa[tree.query(p.at_mm)[1]]),
+                               p.note, p.angle_deg, p.fillet_radius_mm) for p in singular)
+    if singular:
+        notes.append(f"the design stress leaves out a disc of {radius:g} mm radius around each of "
+                     f"{len(singular)} point(s) where the ideal stress is infinite (see singular "
+                     "points); the safety factor never rests on those values")
+    if in_plane_points:
+        notes.append("in plane, the displacement under a point load or support is unbounded "
+                     "too: the largest deflection leaves out the same discs")
+    if not conv.converged:
+        notes.append(f"the error estimates did not reach the {target:g} % target "
+                     f"({conv.stop_reason}); the figures carry the estimates shown")
+    est = ErrorEstimate(conv.deflection_error, conv.stress_error, target, conv.converged,
+                        len(conv.passes), tuple(int(ps.solution.dofs) for ps in conv.passes),
+                        float(last.element_size_mm.min()), conv.stop_reason)
     coll = None
     if mapped.collision is not None and case.collision is not None:
         c = mapped.collision
         coll = CollisionResult(c.force_n, c.bumper_travel_mm, c.vehicle_mass_g, c.deceleration_g,
                                case.collision.speed_m_s, case.collision.bumper_stiffness_n_per_mm)
-    timings["recover"] = time.perf_counter() - t0
-    fields = CaseFields(nodes, tris, disp, defl, vm, rings) if keep_fields else None
+    timings["total"] = time.perf_counter() - t_start
+    fields = CaseFields(nodes, tris, disp, defl, vm, meshes.outline(*used[-1])) \
+        if keep_fields else None
     return CaseResult(
         name=case.name, plate=plate.name, family=case.family,
-        max_deflection_mm=float(defl[i_d]), at_mm=(float(nodes[i_d, 0]), float(nodes[i_d, 1])),
-        max_von_mises_mpa=max_vm, von_mises_at_mm=(float(nodes[i_s, 0]), float(nodes[i_s, 1])),
+        max_deflection_mm=fp.value, at_mm=fp.at_mm,
+        max_von_mises_mpa=max_vm, von_mises_at_mm=dp.at_mm,
         strength_mpa=strength, strength_kind=plate.material.strength_kind, safety_factor=sf,
         limit_mm=limit_mm, span_mm=span, checks=checks, passes=all(c.passes for c in checks),
         dofs=sol.dofs, free_dofs=sol.free_dofs, equilibrium_residual=sol.equilibrium_residual,
         method=sol.method, iterations=sol.iterations, mesh_quality=mesh.quality(),
         nodes=len(nodes), elements=mesh.n_triangles, mesh_size_mm=h,
         applied_force_n=mapped.applied_n, reaction_force_n=reaction, isotropic_properties=iso,
-        collision=coll, notes=tuple(notes), timings_s=timings, fields=fields)
+        collision=coll, notes=tuple(notes), timings_s=timings, fields=fields,
+        solver_backward_error=sol.backward_error, singular_points=sing,
+        exclusion_radius_mm=radius, error_estimate=est,
+        material_used=_material_used(plate, case, iso), point_loads=mapped.point_loads)
 
 
 def analyse_plate(

@@ -262,13 +262,30 @@ def _canvas(result: CaseResult, width_px: int) -> _Canvas:
     return _Canvas((h, w), uv, tri, _raster(uv, tri, (h, w)), rows * w + cols)
 
 
-def _draw(c: _Canvas, values: np.ndarray) -> bytes:
-    """PNG bytes of ``values`` (n,) drawn on canvas ``c``: bands, lines, cross at the maximum."""
+def _design_scale(result: CaseResult, field: str, values: np.ndarray
+                  ) -> tuple[float, float, int] | None:
+    """(min, top of the scale, node of the cross) for a von Mises plot of a case with singular
+    points: the scale stops at the design stress and the cross marks where it stands; None
+    otherwise (the plain min/max scale)."""
+    if field != "von_mises" or not getattr(result, "singular_points", ()) or result.fields is None:
+        return None
+    vmin, _, _ = _range(values)
+    xy = np.asarray(result.fields.nodes_mm, dtype=float)
+    at = np.asarray(result.von_mises_at_mm, dtype=float)
+    i = int(np.argmin(((xy - at) ** 2).sum(axis=1)))
+    return vmin, float(result.max_von_mises_mpa), i
+
+
+def _draw(c: _Canvas, values: np.ndarray,
+          scale: tuple[float, float, int] | None = None) -> bytes:
+    """PNG bytes of ``values`` (n,) drawn on canvas ``c``: bands, lines, cross at the maximum
+    (or, with ``scale`` = (min, top, node), bands up to ``top`` - higher values in the top
+    band - and the cross at ``node``)."""
     h, w = c.shape
     white, line, mark, flat = BANDS, BANDS + 1, BANDS + 2, BANDS + 3
     palette = np.vstack([_band_colours(), [_WHITE, _LINE, _MARK], ramp_rgb(0.5)[None]])
     index = np.full(h * w, white, dtype=np.uint8)
-    vmin, vmax, imax = _range(values)
+    vmin, vmax, imax = _range(values) if scale is None else scale
     if _is_constant(vmin, vmax):
         index[c.raster.pixel] = flat
     else:
@@ -295,7 +312,8 @@ def plot_field(result: CaseResult, field: str = "deflection", *, dpi: int = 110,
     a result kept without fields.
     """
     values = _field_values(result, field)
-    return _draw(_canvas(result, max(16, int(round(width_in * dpi)))), values)
+    return _draw(_canvas(result, max(16, int(round(width_in * dpi)))), values,
+                 _design_scale(result, field, values))
 
 
 def plot_case(result: CaseResult, *, dpi: int = 110) -> dict[str, bytes]:
@@ -303,7 +321,7 @@ def plot_case(result: CaseResult, *, dpi: int = 110) -> dict[str, bytes]:
     ``dpi``; the mesh is rasterised once for both."""
     values = {name: _field_values(result, name) for name in FIELDS}
     canvas = _canvas(result, max(16, int(round(7.0 * dpi))))
-    return {name: _draw(canvas, v) for name, v in values.items()}
+    return {name: _draw(canvas, v, _design_scale(result, name, v)) for name, v in values.items()}
 
 
 def _colour_bar_svg(edges: np.ndarray, constant: bool) -> str:
@@ -344,7 +362,9 @@ def plot_legend_html(result: CaseResult, field: str) -> str:
     f = result.fields
     assert f is not None
     unit, label = _UNITS[field], FIELDS[field][1]
-    vmin, vmax, imax = _range(values)
+    scale = _design_scale(result, field, values)
+    top = _range(values)[1]
+    vmin, vmax, imax = _range(values) if scale is None else scale
     constant = _is_constant(vmin, vmax)
     edges = np.array([vmin, vmax]) if constant else np.linspace(vmin, vmax, BANDS + 1)
     svg = _colour_bar_svg(edges, constant)
@@ -360,6 +380,11 @@ def plot_legend_html(result: CaseResult, field: str) -> str:
         f'title="band edges ({unit}): {edge_text}" style="width:100%;max-width:560px;'
         f"aspect-ratio:560/44;background:url('{uri}') no-repeat;background-size:contain\"></div>"
         f"<div>min {vmin:.4g} {unit}, max {vmax:.4g} {unit}{at} "
-        '(<span style="color:#dc1414">red cross</span>)</div>'
+        '(<span style="color:#dc1414">red cross</span>)'
+        + ("" if scale is None else
+           f"; this is the design stress: up to {top:.4g} {unit} lies within "
+           f"{result.exclusion_radius_mm:g} mm of {len(result.singular_points)} singular "
+           "point(s), drawn in the top band")
+        + "</div>"
         f'<div style="color:#56616b">band edges ({unit}): {edge_text}</div>'
         f'<div style="color:#56616b">{_CAUTION}</div></div>')

@@ -15,7 +15,7 @@ import numpy as np
 from platewright.fea.mesh.triangles import MeshQuality
 
 __all__ = ["ESTIMATE_NOTE", "LimitCheck", "CollisionResult", "CaseFields", "CaseResult",
-           "PlateAnalysis"]
+           "ErrorEstimate", "MaterialUsed", "PlateAnalysis", "SingularValue"]
 
 #: Printed with every set of results.
 ESTIMATE_NOTE = (
@@ -69,6 +69,100 @@ class CollisionResult:
 
 
 @dataclass(frozen=True)
+class SingularValue:
+    """A point where the ideal stress is infinite (fea.singular), with the value found there.
+
+    kind: re-entrant corner | support end | point support | point load. at_mm: (x, y), mm.
+    von_mises_mpa: the largest von Mises stress of the elements meeting at the mesh node there,
+    MPa - it depends on the mesh (it grows as the mesh is refined where the ideal value is
+    infinite) and is never a design value. note: plain words. angle_deg: material angle
+    of a re-entrant corner, degrees (else None). fillet_radius_mm: suggested corner radius, mm
+    (else None).
+    """
+
+    kind: str
+    at_mm: tuple[float, float]
+    von_mises_mpa: float
+    note: str
+    angle_deg: float | None = None
+    fillet_radius_mm: float | None = None
+
+    def to_report(self) -> dict[str, Any]:
+        """JSON-ready dict."""
+        return {"kind": self.kind, "at_mm": [_num(self.at_mm[0]), _num(self.at_mm[1])],
+                "von_mises_mpa": _num(self.von_mises_mpa), "mesh_dependent": True,
+                "angle_deg": _num(self.angle_deg, 4),
+                "fillet_radius_mm": _num(self.fillet_radius_mm, 4), "note": self.note}
+
+
+@dataclass(frozen=True)
+class ErrorEstimate:
+    """Estimated discretisation errors of the reported peaks (fea.adaptive).
+
+    deflection_mm, von_mises_mpa: estimated error of max_deflection_mm and of the design von
+    Mises stress (None: not estimated). target_pct: the target, % of each value. converged:
+    both at or below the target. passes: meshes solved. unknowns: unknowns of each mesh.
+    smallest_element_mm: smallest element edge of the last mesh (about), mm. stop_reason.
+    """
+
+    deflection_mm: float | None
+    von_mises_mpa: float | None
+    target_pct: float
+    converged: bool
+    passes: int
+    unknowns: tuple[int, ...]
+    smallest_element_mm: float
+    stop_reason: str
+
+    @staticmethod
+    def _pct(err: float | None, value: float) -> float | None:
+        if err is None:
+            return None
+        return 100.0 * err / value if value > 0 else 0.0
+
+    def to_report(self, deflection_mm: float, von_mises_mpa: float) -> dict[str, Any]:
+        """JSON-ready dict; the values the estimates belong to are passed in."""
+        return {"deflection_mm": _num(self.deflection_mm, 3),
+                "deflection_pct": _num(self._pct(self.deflection_mm, deflection_mm), 3),
+                "von_mises_mpa": _num(self.von_mises_mpa, 3),
+                "von_mises_pct": _num(self._pct(self.von_mises_mpa, von_mises_mpa), 3),
+                "target_pct": _num(self.target_pct), "converged": self.converged,
+                "passes": self.passes, "unknowns": list(self.unknowns),
+                "smallest_element_mm": _num(self.smallest_element_mm, 3),
+                "method": "stress: superconvergent patch recovery (Zienkiewicz and Zhu 1992), "
+                          "its pointwise gap and the change between meshes refined where the "
+                          "stress stands; deflection: change between meshes a factor sqrt(2) "
+                          "apart (Richardson, order 2); changes times 1.5 (Roache's grid "
+                          "convergence index)",
+                "stop_reason": self.stop_reason}
+
+
+@dataclass(frozen=True)
+class MaterialUsed:
+    """The elastic constants a case was solved with: key and name of the material,
+    youngs_modulus_mpa and poisson_ratio (the isotropic values, or E1 and nu12 when the
+    orthotropic data were used), orthotropic: {E1_mpa, E2_mpa, nu12, G12_mpa, grain_deg} or
+    None, strength_mpa and strength_kind."""
+
+    key: str
+    name: str
+    youngs_modulus_mpa: float
+    poisson_ratio: float
+    orthotropic: dict[str, float] | None
+    strength_mpa: float
+    strength_kind: str
+
+    def to_report(self) -> dict[str, Any]:
+        """JSON-ready dict."""
+        return {"key": self.key, "name": self.name,
+                "youngs_modulus_mpa": _num(self.youngs_modulus_mpa),
+                "poisson_ratio": _num(self.poisson_ratio),
+                "orthotropic": None if self.orthotropic is None else
+                {k: _num(v) for k, v in self.orthotropic.items()},
+                "strength_mpa": _num(self.strength_mpa), "strength_kind": self.strength_kind}
+
+
+@dataclass(frozen=True)
 class CaseFields:
     """Fields on the mesh for plots and exports (linear triangles; a T6 mesh is split 4:1).
 
@@ -91,15 +185,22 @@ class CaseResult:
     """The outcome of one load case on one plate.
 
     name, plate, family (bending | in_plane). max_deflection_mm and at_mm (x, y) where it
-    occurs. max_von_mises_mpa and von_mises_at_mm. strength_mpa / strength_kind of the
-    material; safety_factor = strength / max von Mises (inf when unstressed). limit_mm: the
+    occurs. max_von_mises_mpa and von_mises_at_mm: the DESIGN stress - the largest recovered
+    von Mises stress at least exclusion_radius_mm from every singular point (never a singular
+    value) - and where it occurs. strength_mpa / strength_kind of the material; safety_factor
+    = strength / design stress (inf when unstressed). limit_mm: the
     governing deflection limit (None when none is set); span_mm: span used by span_ratio.
     checks: the limits set, passes: all of them met (True when none is set). dofs, free_dofs,
     equilibrium_residual (dimensionless), method (direct | amg), iterations. mesh_quality,
     nodes, elements, mesh_size_mm. applied_force_n (Fx, Fy, Fz) and reaction_force_n, N.
     isotropic_properties: True when isotropic E and nu were used (no orthotropic data).
     collision: CollisionResult or None. notes: remarks. timings_s: stage -> seconds.
-    fields: CaseFields for plots and exports.
+    fields: CaseFields for plots and exports. solver_backward_error: normwise backward error
+    of the linear solve (dimensionless, ~1e-16 for a stable solve; see fea.solve).
+    singular_points: SingularValue per point where the ideal stress is infinite.
+    exclusion_radius_mm: radius of the disc around each left out of the design stress, mm.
+    error_estimate: ErrorEstimate of the two peaks. material_used: MaterialUsed.
+    point_loads: how each point load was applied ({asked_mm, applied_mm, offset_mm, how}).
     """
 
     name: str
@@ -132,6 +233,18 @@ class CaseResult:
     notes: tuple[str, ...]
     timings_s: dict[str, float] = field(default_factory=dict)
     fields: CaseFields | None = field(default=None, repr=False, compare=False)
+    solver_backward_error: float = 0.0
+    singular_points: tuple[SingularValue, ...] = ()
+    exclusion_radius_mm: float = 0.0
+    error_estimate: ErrorEstimate | None = None
+    material_used: MaterialUsed | None = None
+    point_loads: tuple[dict[str, Any], ...] = ()
+
+    @property
+    def design_von_mises_mpa(self) -> float:
+        """The design stress, MPa: the largest von Mises stress outside the exclusion discs
+        around the singular points (the same figure as max_von_mises_mpa)."""
+        return self.max_von_mises_mpa
 
     def to_report(self) -> dict[str, Any]:
         """JSON-ready dict for ``plates[].fea.load_cases[]`` of report.json (schema 1)."""
@@ -143,7 +256,15 @@ class CaseResult:
             "at_mm": [_num(self.at_mm[0]), _num(self.at_mm[1])],
             "limit_mm": _num(self.limit_mm),
             "max_von_mises_mpa": _num(self.max_von_mises_mpa),
+            "design_von_mises_mpa": _num(self.max_von_mises_mpa),
             "von_mises_at_mm": [_num(self.von_mises_at_mm[0]), _num(self.von_mises_at_mm[1])],
+            "exclusion_radius_mm": _num(self.exclusion_radius_mm, 4),
+            "singular_points": [p.to_report() for p in self.singular_points],
+            "error_estimate": None if self.error_estimate is None else
+            self.error_estimate.to_report(self.max_deflection_mm, self.max_von_mises_mpa),
+            "material_used": None if self.material_used is None else
+            self.material_used.to_report(),
+            "point_loads": [dict(p) for p in self.point_loads],
             "safety_factor": _num(self.safety_factor, 4),
             "strength_mpa": _num(self.strength_mpa),
             "strength_kind": self.strength_kind,
@@ -153,7 +274,8 @@ class CaseResult:
             "dofs": self.dofs,
             "equilibrium_residual": _num(self.equilibrium_residual, 3),
             "solver": {"method": self.method, "iterations": self.iterations,
-                       "free_dofs": self.free_dofs},
+                       "free_dofs": self.free_dofs,
+                       "backward_error": _num(self.solver_backward_error, 3)},
             "mesh": {"nodes": self.nodes, "elements": self.elements,
                      "size_mm": _num(self.mesh_size_mm),
                      "min_angle_deg": _num(q.min_angle_deg, 4),

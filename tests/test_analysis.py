@@ -68,10 +68,15 @@ def test_in_plane_cantilever_matches_timoshenko_goodier():
     expected = P_N * L_MM**3 / (3 * e * i) + (4 + 5 * nu) * P_N * DEPTH_MM**2 * L_MM / (24 * e * i)
     assert r.max_deflection_mm == pytest.approx(expected, rel=0.015)
     assert r.at_mm[0] == pytest.approx(L_MM)
-    # Beam theory root stress sigma = M c / I = P L (D / 2) / I; the peak sits at the root
-    # corner and is at least that (the clamp adds a local rise).
-    assert r.max_von_mises_mpa >= 0.95 * P_N * L_MM * (DEPTH_MM / 2) / i
-    assert r.von_mises_at_mm[0] == pytest.approx(0.0, abs=1e-9)
+    # The root corners, where the clamp meets the free edges, are singular points: the design
+    # stress leaves out a disc of one sheet thickness round them. Outside it, on the edge, it
+    # is the beam's sigma = M c / I = P (L - x) (D / 2) / I at its own x (Timoshenko and
+    # Goodier; the clamp changes the field near the root by ~2 %, Saint-Venant).
+    assert {p.at_mm for p in r.singular_points} == {(0.0, DEPTH_MM / 2), (0.0, -DEPTH_MM / 2)}
+    x, y = r.von_mises_at_mm
+    assert math.hypot(x, abs(y) - DEPTH_MM / 2) >= r.exclusion_radius_mm == T_MM
+    assert abs(y) == pytest.approx(DEPTH_MM / 2)
+    assert r.max_von_mises_mpa == pytest.approx(P_N * (L_MM - x) * (DEPTH_MM / 2) / i, rel=0.03)
 
 
 def test_bending_strip_without_poisson_effect_matches_beam_theory():

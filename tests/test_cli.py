@@ -167,3 +167,13 @@ def test_starters_lists_and_copies(tmp_path, capsys):
 def test_materials_lists_refused_ones(capsys):
     rc, out, _ = run(["materials"], capsys)
     assert rc == 0 and "pvc" in out and "REFUSED" in out
+
+
+def test_materials_lists_poissons_ratio(capsys):
+    from platewright.geometry.library import load_materials
+
+    rc, out, _ = run(["materials"], capsys)
+    rows = {line.split()[0]: line for line in out.splitlines() if line.strip()}
+    for key, m in load_materials().items():
+        if m.laser_safe:
+            assert f"nu {m.poisson_ratio:4.2f}" in rows[key]

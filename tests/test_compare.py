@@ -201,9 +201,11 @@ def test_folders_with_results_compare_deflection_and_safety_factor(tmp_path):
     assert deck["features_moved"] == deck["features_resized"] == deck["features_added"] == []
     (case,) = deck["load_cases"]
     d, sf = case["max_deflection_mm"], case["safety_factor"]
-    # Kirchhoff plate theory: deflection ~ 1 / t^3, stress ~ 1 / t^2 (same loads, same supports)
+    # Kirchhoff plate theory: deflection ~ 1 / t^3, stress ~ 1 / t^2 (same loads, same supports).
+    # The design stress leaves out a disc of one sheet thickness round each singular point, so
+    # the two sheets are read at slightly different points: 1 % on the stress ratio.
     assert d["a"] / d["b"] == pytest.approx(8.0, rel=1e-3)
-    assert sf["b"] / sf["a"] == pytest.approx(4.0, rel=1e-3)
+    assert sf["b"] / sf["a"] == pytest.approx(4.0, rel=1e-2)
     assert d["delta"] == pytest.approx(d["b"] - d["a"], rel=1e-9)
     # mass: rho t A, so doubling t doubles the mass
     assert deck["mass_g"]["b"] == pytest.approx(2.0 * deck["mass_g"]["a"], rel=1e-9)

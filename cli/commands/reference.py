@@ -65,6 +65,7 @@ class MaterialsCommand(Command):
             if not m.laser_safe:
                 print(f"{key:22s} REFUSED: {m.refusal_reason}")
                 continue
-            print(f"{key:22s} E {m.youngs_modulus_mpa:8.0f} MPa  rho {m.density_kg_m3:6.0f} kg/m3  "
-                  f"{m.strength_kind} {m.strength_mpa:5.0f} MPa  kerf {m.typical_kerf_mm:.2f} mm")
+            print(f"{key:22s} E {m.youngs_modulus_mpa:8.0f} MPa  nu {m.poisson_ratio:4.2f}  "
+                  f"rho {m.density_kg_m3:6.0f} kg/m3  {m.strength_kind} {m.strength_mpa:5.0f} MPa  "
+                  f"kerf {m.typical_kerf_mm:.2f} mm")
         return 0

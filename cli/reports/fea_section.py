@@ -20,6 +20,50 @@ def _fmt(x: Any, spec: str = ".3g") -> str:
     return "-" if x is None else format(x, spec)
 
 
+def _pm(value: Any, pct: Any, sign: str = "\u00b1") -> str:
+    """A value with its estimated error in per cent: "1.23 +-0.4%" ("+-?" when none)."""
+    if value is None:
+        return "-"
+    return f"{value:.3g} {sign}" + ("?" if pct is None else f"{pct:.2g}%")
+
+
+def _singular_lines(c: dict[str, Any]) -> list[str]:
+    """Plain-words lines on a case's singular points (report.json entry ``c``)."""
+    pts = c.get("singular_points") or []
+    if not pts:
+        return []
+    out = [f"design stress read outside {c['exclusion_radius_mm']:g} mm of {len(pts)} singular "
+           "point(s); their values depend on the mesh and never set the safety factor:"]
+    for p in pts:
+        x, y = p["at_mm"]
+        out.append(f"{p['kind']} at [{x:g}, {y:g}] mm: {_fmt(p['von_mises_mpa'])} MPa "
+                   f"(mesh-dependent) - {p['note']}")
+    return out
+
+
+def _estimate_line(c: dict[str, Any], sign: str = "\u00b1") -> str:
+    e = c.get("error_estimate")
+    if not e:
+        return ""
+    state = "within" if e["converged"] else "NOT within"
+    return (f"estimated discretisation error: deflection {sign}{_fmt(e['deflection_pct'], '.2g')}%, "
+            f"design stress {sign}{_fmt(e['von_mises_pct'], '.2g')}% ({state} the "
+            f"{e['target_pct']:g} % target after {e['passes']} mesh(es): {e['stop_reason']})")
+
+
+def _material_line(c: dict[str, Any]) -> str:
+    m = c.get("material_used")
+    if not m:
+        return ""
+    text = (f"solved with {m['name']}: E {m['youngs_modulus_mpa']:g} MPa, Poisson's ratio "
+            f"{m['poisson_ratio']:g}")
+    if m.get("orthotropic"):
+        o = m["orthotropic"]
+        text += (f" (orthotropic: E1 {o['E1_mpa']:g}, E2 {o['E2_mpa']:g}, G12 {o['G12_mpa']:g} "
+                 f"MPa, nu12 {o['nu12']:g}, grain at {o['grain_deg']:g} degrees)")
+    return text
+
+
 def write_plots(analysis: PlateAnalysis, folder: Path, stem: str) -> dict[str, dict[str, str]]:
     """Write deflection and von Mises PNGs of every case to ``folder/plots``; returns
     ``{case name: {plot name: relative path}}``."""
@@ -63,14 +107,20 @@ def fea_html(analysis: PlateAnalysis, report_fea: dict[str, Any], folder: Path,
                            + ("" if x["passes"] else " (fails)") for x in c["limits"]) or "none set"
         rows.append(
             f"<tr><td class='l'>{html.escape(c['name'])}</td><td class='l'>{c['family']}</td>"
-            f"<td>{_fmt(c['max_deflection_mm'])}</td><td>{_fmt(c['max_von_mises_mpa'])}</td>"
+            f"<td>{_pm(c['max_deflection_mm'], (c.get('error_estimate') or {}).get('deflection_pct'))}</td>"
+            f"<td>{_pm(c['max_von_mises_mpa'], (c.get('error_estimate') or {}).get('von_mises_pct'))}</td>"
             f"<td>{_fmt(c['safety_factor'])}</td><td class='l'>{limits}</td><td>{verdict}</td>"
             f"<td>{c['dofs']}</td><td>{_fmt(c['equilibrium_residual'], '.1e')}</td></tr>")
-    table = ("<table><tr><th class='l'>case</th><th class='l'>family</th><th>max deflection mm</th>"
-             "<th>max von Mises MPa</th><th>safety factor</th><th class='l'>limits</th><th>verdict</th>"
+    table = ("<table><tr><th class='l'>case</th><th class='l'>family</th><th>max deflection mm "
+             "(\u00b1 estimated error)</th><th>design von Mises MPa (\u00b1 estimated error)</th>"
+             "<th>safety factor</th><th class='l'>limits</th><th>verdict</th>"
              "<th>unknowns</th><th>equilibrium residual</th></tr>" + "".join(rows) + "</table>")
     notes = []
+    by_name = {c["name"]: c for c in report_fea["load_cases"]}
     for case in analysis.cases:
+        rep = by_name.get(case.name, {})
+        extra = [_estimate_line(rep), _material_line(rep), *_singular_lines(rep)]
+        notes.extend(f"{case.name}: {n}" for n in extra if n)
         notes.extend(f"{case.name}: {n}" for n in case.notes)
         if case.collision is not None:
             col = case.collision
@@ -96,12 +146,28 @@ def fea_html(analysis: PlateAnalysis, report_fea: dict[str, Any], folder: Path,
 def fea_summary(analyses: list[PlateAnalysis]) -> str:
     """Terminal table: one row per plate and load case."""
     rows = []
+    lines = []
     for a in analyses:
         for c in a.cases:
-            rows.append([f"{a.plate}/{c.name}", c.family, _fmt(c.max_deflection_mm),
-                         _fmt(c.limit_mm), _fmt(c.max_von_mises_mpa), _fmt(c.safety_factor),
+            rep = c.to_report()
+            e = rep.get("error_estimate") or {}
+            rows.append([f"{a.plate}/{c.name}", c.family,
+                         _pm(c.max_deflection_mm, e.get("deflection_pct"), "+-"),
+                         _fmt(c.limit_mm),
+                         _pm(c.max_von_mises_mpa, e.get("von_mises_pct"), "+-"),
+                         _fmt(c.safety_factor),
                          str(c.dofs), f"{c.equilibrium_residual:.1e}",
                          "pass" if c.passes else "FAIL"])
-    table = format_table(["plate/case", "family", "defl mm", "limit mm", "vM MPa", "SF",
+            if e and not e["converged"]:
+                lines.append(f"{a.plate}/{c.name}: {_estimate_line(rep, '+-')}")
+            pts = rep.get("singular_points") or []
+            if pts:
+                kinds = sorted({p["kind"] for p in pts})
+                lines.append(f"{a.plate}/{c.name}: design stress read outside "
+                             f"{rep['exclusion_radius_mm']:g} mm of {len(pts)} singular point(s) "
+                             f"({', '.join(kinds)}); see the report")
+    table = format_table(["plate/case", "family", "defl mm", "limit mm", "design vM MPa", "SF",
                           "unknowns", "residual", "verdict"], rows)
-    return table + f"\nEstimates: {ESTIMATE_NOTE}."
+    extra = "".join(f"\n{line}" for line in lines)
+    return (table + extra + "\n+-: estimated discretisation error."
+            + f"\nEstimates: {ESTIMATE_NOTE}.")

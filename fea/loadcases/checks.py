@@ -126,6 +126,10 @@ def _check_family(rd: Reader, case: LoadCase, comps: Mapping[str, Component], cl
             elif comp.plate != case.plate:
                 rd.fail(f"{ld.path}.component", f"component '{comp.id}' sits on plate "
                         f"'{comp.plate}', not on '{case.plate}'")
+    for s in case.supports:
+        if bending and s.directions != ("x", "y"):
+            rd.fail(f"{s.path}.directions", "directions choose in-plane displacements",
+                    "drop directions in a bending case, or use family: in_plane")
     if bending and case.collision is not None:
         rd.fail(f"{case.path}.collision", "a collision loads the plate in its plane",
                 "use family: in_plane")

@@ -65,6 +65,18 @@ CASE = {
                           gt=0.0),
     "grain_deg": Spec("number", "face grain direction from +x for sheets with orthotropic data "
                        "(default: along x)", "degrees"),
+    "error_target_pct": Spec("number", "target of the estimated discretisation error of the "
+                              "largest deflection and of the design stress: the mesh is refined "
+                              "(first everywhere, then where the design stress stands) until "
+                              "both estimates are below it or max_refinements is used up", "%",
+                              default=1.0, gt=0.0),
+    "max_refinements": Spec("number", "largest number of refinement passes after the first "
+                             "solve (0: solve once; the deflection's error is then not "
+                             "estimated)", default=4, ge=0.0),
+    "exclusion_radius_mm": Spec("number", "radius of the disc around each singular point (a "
+                                 "sharp inside corner, the end of a held stretch of edge, a "
+                                 "point support or point load) that the design stress leaves "
+                                 "out (default: the sheet thickness)", "mm", gt=0.0),
 }
 SUPPORT = {
     "at": Spec("text", "bores: the rims of holes; mount: every hole of a mount; edge: an edge "
@@ -82,16 +94,24 @@ SUPPORT = {
                                                "each named bore or mount", "N mm/rad",
                                                default=0.0, ge=0.0),
     "condition": Spec("text", "clamped: no deflection, no slope; pinned: no deflection (in "
-                       "in_plane both fix the edge)", choices=("clamped", "pinned")),
+                       "in_plane both hold the directions given); symmetry (edge): a mirror "
+                       "line on a straight edge along x or y - bending: no slope across it, "
+                       "in_plane: no movement across it", choices=("clamped", "pinned",
+                                                                   "symmetry")),
+    "directions": Spec("names", "in_plane: the displacement components held, [x], [y] or "
+                        "[x, y] (default both); one of them makes a roller that slides along "
+                        "the other"),
     "region_mm": Spec("region", "part of the edge: " + _REGION_DOC),
-    "points_mm": Spec("points", "support points [[x, y], ...] (nearest mesh node)", "mm"),
+    "points_mm": Spec("points", "support points [[x, y], ...] (a mesh node is placed at each)",
+                      "mm"),
 }
 SUPPORT_KEYS = {
     "bores": ("at", "features", "feature", "mode", "stiffness_n_per_mm",
-              "rotational_stiffness_n_mm_per_rad"),
-    "mount": ("at", "feature", "mode", "stiffness_n_per_mm", "rotational_stiffness_n_mm_per_rad"),
-    "edge": ("at", "feature", "condition", "region_mm"),
-    "points": ("at", "points_mm", "condition"),
+              "rotational_stiffness_n_mm_per_rad", "directions"),
+    "mount": ("at", "feature", "mode", "stiffness_n_per_mm", "rotational_stiffness_n_mm_per_rad",
+              "directions"),
+    "edge": ("at", "feature", "condition", "region_mm", "directions"),
+    "points": ("at", "points_mm", "condition", "directions"),
 }
 LOAD = {
     "type": Spec("text", "what kind of load", required=True,
@@ -99,7 +119,8 @@ LOAD = {
     "component": Spec("text", "component id: its weight x g_factor"),
     "feature": Spec("text", "feature the load is spread on (force, moment; edge default: the "
                      "outline)"),
-    "at_mm": Spec("vector", "force: point [x, y] instead of a feature (nearest mesh node)", "mm"),
+    "at_mm": Spec("vector", "force: point [x, y] instead of a feature (a mesh node is placed "
+                   "there; the report says where the force went)", "mm"),
     "force_n": Spec("vector", "total force [Fx, Fy, Fz] (or [Fx, Fy]); bending uses Fz, "
                      "in_plane Fx, Fy", "N", lengths=(2, 3)),
     "moment_n_mm": Spec("vector", "moment [Mx, My, Mz] (right-hand rule); bending uses Mx, My, "

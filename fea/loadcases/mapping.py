@@ -67,7 +67,8 @@ class MappedCase:
     f: (n_dofs,) float loads (N, N mm). fixed_dofs: (p,) int; fixed_values: (p,) float.
     spring_matrix: (n_dofs, n_dofs) CSR (N/mm, N mm/rad) or None. supported_nodes: (s,) int
     nodes held by any support. applied_n: total applied force (Fx, Fy, Fz), N. collision:
-    CollisionLoad or None. notes: remarks for the report (e.g. point loads).
+    CollisionLoad or None. notes: remarks for the report (e.g. point loads). point_loads: how
+    each point load was applied: {asked_mm, applied_mm, offset_mm, how}.
     """
 
     f: np.ndarray
@@ -78,6 +79,7 @@ class MappedCase:
     applied_n: tuple[float, float, float]
     collision: CollisionLoad | None
     notes: tuple[str, ...]
+    point_loads: tuple[dict, ...] = ()
 
 
 def collision_force_n(speed_m_s: float, stiffness_n_per_mm: float, mass_g: float) -> float:
@@ -116,6 +118,7 @@ class _Mapper:
         self.springs: list[sp.csr_matrix] = []
         self.held: list[np.ndarray] = []
         self.notes: list[str] = []
+        self.point_loads: list[dict] = []
         self.applied = np.zeros(3)
 
     def fail(self, path: str, message: str, hint: str = "") -> DesignError:
@@ -196,8 +199,18 @@ class _Mapper:
         else:
             self.f[2 * k: 2 * k + 2] += force[:2]
         self.applied += force
-        self.notes.append(f"point load at [{p[0]:g}, {p[1]:g}] mm: the stress next to it "
-                          "grows as the mesh is refined; give a footprint or a feature")
+        at = self.mesh.nodes[k]
+        offset = float(np.hypot(at[0] - p[0], at[1] - p[1]))
+        how = ("on a mesh node placed at the asked point" if offset <= 1e-9 * max(1.0, abs(p[0]),
+                                                                                  abs(p[1]))
+               else f"on the nearest mesh node, {offset:.3g} mm from the asked point (the point "
+                    "lies in a hole or within a tiny distance of the edge)")
+        self.point_loads.append({"asked_mm": [float(p[0]), float(p[1])],
+                                 "applied_mm": [float(at[0]), float(at[1])],
+                                 "offset_mm": offset, "how": how})
+        self.notes.append(f"point load at [{p[0]:g}, {p[1]:g}] mm applied {how}; the stress "
+                          "next to it grows as the mesh is refined (left out of the design "
+                          "stress), give a footprint or a feature for a design value there")
 
     def area(self, sel: np.ndarray, force: np.ndarray) -> None:
         """A total force (3,) N spread evenly over the selected elements (m,) bool."""
@@ -265,19 +278,28 @@ class _Mapper:
     # ---- supports
     def support(self, s: Support) -> None:
         names = s.features or (None,)
+        held = np.array([{"x": 0, "y": 1}[d] for d in s.directions])
         if s.at == "points":
             idx = np.array([self.nearest_node(p) for p in s.points_mm])
+            for p, k in zip(s.points_mm, idx, strict=True):
+                gap = float(np.hypot(*(self.mesh.nodes[k] - np.asarray(p, float))))
+                if gap > 1e-9 * max(1.0, float(np.abs(p).max())):
+                    self.notes.append(f"support point [{p[0]:g}, {p[1]:g}] mm is held at the "
+                                      f"nearest mesh node, {gap:.3g} mm away")
             comps = [0, 1, 2] if (self.bending and s.condition == "clamped") else \
-                ([0] if self.bending else [0, 1])
+                ([0] if self.bending else held)
             self.fixed.append((self.dpn * idx[:, None] + np.array(comps)).ravel())
             self.held.append(idx)
             return
         edges = np.vstack([self.edges(n, s.region, f"{s.path}.{_field(s)}") for n in names])
         nodes = np.unique(edges)
         self.held.append(nodes)
+        if s.at == "edge" and s.condition == "symmetry":
+            self.fixed.append(self.symmetry(edges, s))
+            return
         if s.at == "edge" or s.mode == "rigid":
             if not self.bending:
-                self.fixed.append((2 * nodes[:, None] + np.arange(2)).ravel())
+                self.fixed.append((2 * nodes[:, None] + held).ravel())
             elif s.at == "edge" and s.condition == "clamped":
                 self.fixed.append(ps.clamped(_EdgeView(self.nodes, edges), "sel").fixed_dofs)
             else:  # pinned edge (hard simple support on straight x/y edges) or a rigid rim
@@ -295,9 +317,27 @@ class _Mapper:
             else:
                 at, share = _consistent_shares(ring, self.nodes, len(self.nodes))
                 k = s.stiffness_n_per_mm * share[at]
-                rows = np.concatenate([2 * at, 2 * at + 1])
-                self.springs.append(sp.csr_matrix((np.concatenate([k, k]), (rows, rows)),
+                rows = np.concatenate([2 * at + c for c in held])
+                self.springs.append(sp.csr_matrix((np.tile(k, len(held)), (rows, rows)),
                                                   shape=(self.n_dofs,) * 2))
+
+    def symmetry(self, edges: np.ndarray, s: Support) -> np.ndarray:
+        """Dofs held on a mirror line: in plane the displacement across it, in bending the
+        rotation about it (no slope across). The edges must lie along x or along y."""
+        xy = self.nodes
+        d = xy[edges[:, 1]] - xy[edges[:, 0]]
+        length = np.hypot(d[:, 0], d[:, 1])
+        along_x = np.abs(d[:, 1]) <= 1e-9 * length
+        along_y = np.abs(d[:, 0]) <= 1e-9 * length
+        if not (along_x.all() or along_y.all()):
+            where = "feature" if s.region is None else "region_mm"
+            raise self.fail(f"{s.path}.{where}", "a symmetry line must be one straight edge "
+                            "along x or along y; the edges selected are not",
+                            "select the straight edge on the mirror line with region_mm")
+        nodes = np.unique(edges[:, :2] if self.bending else edges)
+        if self.bending:  # along x: theta_x = dw/dy = 0; along y: theta_y = -dw/dx = 0
+            return 3 * nodes + (1 if along_x.all() else 2)
+        return 2 * nodes + (1 if along_x.all() else 0)
 
 
 def _field(s: Support) -> str:
@@ -390,4 +430,5 @@ def map_case(
         spring = sp.csr_matrix(spring)
     held = np.unique(np.concatenate(mp.held)) if mp.held else np.zeros(0, np.int64)
     return MappedCase(mp.f, fixed, np.zeros(fixed.shape), spring, held,
-                      tuple(float(v) for v in mp.applied), coll, tuple(dict.fromkeys(mp.notes)))
+                      tuple(float(v) for v in mp.applied), coll, tuple(dict.fromkeys(mp.notes)),
+                      tuple(mp.point_loads))

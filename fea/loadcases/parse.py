@@ -109,10 +109,20 @@ def _read_support(rd: Reader, raw: Any, path: str) -> Support | None:
     if at == "points" and d.get("points_mm") is None:
         rd.fail(path, "a support at points needs 'points_mm'", "[[x, y], ...] in mm")
         return None
+    if at == "points" and d.get("condition") == "symmetry":
+        rd.fail(f"{path}.condition", "symmetry is a line: use it on an edge",
+                "{at: edge, condition: symmetry, region_mm: {...}}")
+        return None
+    directions = d.get("directions") or ("x", "y")
+    bad = [v for v in directions if v not in ("x", "y")]
+    if bad or len(set(directions)) != len(directions):
+        rd.fail(f"{path}.directions", f"directions must be [x], [y] or [x, y], got "
+                f"{list(directions)}", "x and y are the plate's axes")
+        return None
     return Support(at, feats, mode, float(stiff or 0.0),
                    float(d.get("rotational_stiffness_n_mm_per_rad") or 0.0),
                    d.get("condition") or "pinned", d.get("region_mm"),
-                   tuple(d.get("points_mm") or ()), path)
+                   tuple(d.get("points_mm") or ()), path, tuple(sorted(directions)))
 
 
 def _read_load(rd: Reader, raw: Any, path: str) -> Load | None:
@@ -177,9 +187,17 @@ def _read_case(rd: Reader, raw: Any, path: str) -> tuple[LoadCase | None, bool]:
     self_weight = d["self_weight"]
     if self_weight is None:
         self_weight = d["family"] == "bending" or g_dir is not None
+    refinements = d.get("max_refinements")
+    if refinements is not None and float(refinements) != int(refinements):
+        rd.fail(f"{path}.max_refinements", f"max_refinements must be a whole number, got "
+                f"{refinements:g}", "e.g. 4; 0 solves once")
+        refinements = None
     case = LoadCase(d["name"], d["plate"], d["family"], float(d["g_factor"]), bool(self_weight),
                     g_dir, tuple(s for s in supports if s), tuple(x for x in loads if x), coll,
-                    lim, d["mesh_size_mm"], d["grain_deg"], path)
+                    lim, d["mesh_size_mm"], d["grain_deg"], path,
+                    None if d.get("error_target_pct") is None else float(d["error_target_pct"]),
+                    None if refinements is None else int(refinements),
+                    d.get("exclusion_radius_mm"))
     return case, len(rd.problems) == before
 
 

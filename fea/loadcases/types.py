@@ -88,8 +88,10 @@ class Support:
     stiffness_n_per_mm: stiffness of an elastic support at EACH named feature, N/mm (vertical
     in bending; in each in-plane direction in in_plane), shared along the feature's rim by edge
     length. rotational_stiffness_n_mm_per_rad: tilt stiffness of each, bending, N mm/rad.
-    condition: clamped | pinned (edge, points). region: part of the edge (None: all of it).
-    points_mm: support points, mm. path: field path.
+    condition: clamped | pinned (edge, points) | symmetry (edge: a mirror line). region: part
+    of the edge (None: all of it). points_mm: support points, mm. path: field path.
+    directions: in_plane displacement components held, a subset of ("x", "y"); one makes a
+    roller.
     """
 
     at: str
@@ -101,6 +103,7 @@ class Support:
     region: Box | None
     points_mm: tuple[tuple[float, float], ...]
     path: str
+    directions: tuple[str, ...] = ("x", "y")
 
 
 @dataclass(frozen=True)
@@ -175,6 +178,10 @@ class LoadCase:
     along -z). supports, loads: tuples. collision: Collision or None. limits: Limits.
     mesh_size_mm: target element size, mm (None: from the plate size). grain_deg: face grain
     direction from +x, degrees, for sheets with orthotropic data (None: along x). path.
+    error_target_pct: target of the estimated error of the reported peaks, % (None: 1).
+    max_refinements: refinement passes allowed after the first solve (None: the default, 4).
+    exclusion_radius_mm: disc around each singular point left out of the design stress, mm
+    (None: the sheet thickness).
     """
 
     name: str
@@ -190,6 +197,9 @@ class LoadCase:
     mesh_size_mm: float | None
     grain_deg: float | None
     path: str
+    error_target_pct: float | None = None
+    max_refinements: int | None = None
+    exclusion_radius_mm: float | None = None
 
 
 @dataclass(frozen=True)

@@ -84,9 +84,51 @@ def _delaunay(nodes: np.ndarray) -> np.ndarray:
     return tri.simplices.astype(np.int64)
 
 
+def _split_slivers(nodes: np.ndarray, tri: np.ndarray) -> np.ndarray:
+    """Replace each zero-area triangle (three collinear nodes, e.g. a node placed on a hull edge
+    between two others) and its neighbour across the long edge by two triangles that use the
+    middle node, so that node gets proper triangles and the short edges exist."""
+    p = nodes[tri]
+    cross = ((p[:, 1, 0] - p[:, 0, 0]) * (p[:, 2, 1] - p[:, 0, 1])
+             - (p[:, 2, 0] - p[:, 0, 0]) * (p[:, 1, 1] - p[:, 0, 1]))
+    sq = np.stack([((p[:, (k + 1) % 3] - p[:, (k + 2) % 3]) ** 2).sum(axis=1)
+                   for k in range(3)], axis=1)  # squared length of the edge opposite corner k
+    flat = np.flatnonzero(np.abs(cross) <= 1e-10 * sq.max(axis=1))
+    if flat.size == 0:
+        return tri
+    tri = tri.copy()
+    drop: list[int] = []
+    for t in flat:
+        k = int(np.argmax(sq[t]))
+        m, a, b = tri[t, k], tri[t, (k + 1) % 3], tri[t, (k + 2) % 3]
+        other = np.flatnonzero((tri == a).any(axis=1) & (tri == b).any(axis=1))
+        other = [o for o in other if o != t and o not in drop]
+        if not other:
+            continue
+        o = other[0]
+        x = [v for v in tri[o] if v != a and v != b][0]
+        new = []
+        for u, v in ((a, m), (m, b)):
+            c = np.array([u, v, x])
+            q = nodes[c]
+            if (q[1, 0] - q[0, 0]) * (q[2, 1] - q[0, 1]) - (q[2, 0] - q[0, 0]) * (q[1, 1] - q[0, 1]) < 0:
+                c = c[[0, 2, 1]]
+            new.append(c)
+        tri[o] = new[0]
+        tri[t] = new[1]
+        drop.append(o)
+    return tri
+
+
 def _inside_triangles(nodes: np.ndarray, tri: np.ndarray, poly: shapely.Polygon) -> np.ndarray:
     c = nodes[tri].mean(axis=1)
     t = tri[shapely.contains_xy(poly, c[:, 0], c[:, 1])]
+    # A zero-area triangle of three collinear boundary nodes has its centroid on the boundary
+    # and may pass the test: it is not part of the region.
+    p = nodes[t]
+    longest = np.max([((p[:, k] - p[:, (k + 1) % 3]) ** 2).sum(axis=1) for k in range(3)],
+                     axis=0) if len(t) else np.zeros(0)
+    t = t[np.abs(triangle_areas_mm2(nodes, t)) > 1e-12 * longest]
     neg = triangle_areas_mm2(nodes, t) < 0.0
     t[neg] = t[neg][:, [0, 2, 1]]
     return t
@@ -115,7 +157,7 @@ class _Work:
         """Make every boundary segment a Delaunay edge; returns all Delaunay triangles."""
         for _ in range(_RECOVERY_ROUNDS):
             nodes = self.nodes
-            tri_all = _delaunay(nodes)
+            tri_all = _split_slivers(nodes, _delaunay(nodes))
             missing = _missing_segments(tri_all, self.segs, len(nodes))
             if not missing.any():
                 return tri_all
@@ -171,7 +213,8 @@ def _recover_and_smooth(work: _Work, reg: Region, field: SizeField) -> np.ndarra
 
 
 def _interior_nodes(
-    reg: Region, field: SizeField, bnodes: np.ndarray, segs: np.ndarray
+    reg: Region, field: SizeField, bnodes: np.ndarray, segs: np.ndarray,
+    fixed: np.ndarray | None = None,
 ) -> np.ndarray:
     """Lattice nodes inside the region, kept clear of the boundary: (p, 2) float, mm."""
     bbox = tuple(float(v) for v in reg.polygon.bounds)
@@ -192,7 +235,53 @@ def _interior_nodes(
     tree = cKDTree(dense_boundary(bnodes, segs, per_edge))
     db, idx = tree.query(pts)
     near_len = seg_len[idx // per_edge]
-    return pts[db >= _BOUNDARY_GAP * np.maximum(h, near_len)]
+    keep = db >= _BOUNDARY_GAP * np.maximum(h, near_len)
+    if fixed is not None and len(fixed):
+        dp, _ = cKDTree(fixed).query(pts)
+        keep &= dp >= _BOUNDARY_GAP * h
+    return pts[keep]
+
+
+def _points_onto_rings(
+    rings: Sequence[TaggedRing], points: np.ndarray, field: SizeField, polygon: shapely.Polygon
+) -> tuple[list[TaggedRing], np.ndarray]:
+    """Make every point (p, 2) mm a mesh node, or the nearest boundary node.
+
+    A point outside ``polygon`` (the region) or within a quarter of the local size of the
+    boundary goes onto the boundary: its projection on the nearest ring segment becomes a ring
+    vertex (kept as a boundary node by the mesher), or that segment's nearer end is used when
+    the projection lies within 0.15 of the segment's length of it (no sliver). The other points
+    are returned as fixed interior nodes (q, 2). The caller can measure how far each moved.
+    """
+    out = [TaggedRing(np.asarray(r.points_mm, dtype=float).reshape(-1, 2), r.tag, r.is_hole)
+           for r in rings]
+    pts = np.asarray(points, dtype=float).reshape(-1, 2)
+    if len(pts):
+        scale = 1e-9 * max(1.0, float(np.abs(pts).max()))
+        pts = pts[np.unique(np.round(pts / scale).astype(np.int64), axis=0,
+                            return_index=True)[1]]
+    inner: list[np.ndarray] = []
+    for p in pts:
+        best = (math.inf, -1, -1, 0.0)
+        for k, r in enumerate(out):
+            a = r.points_mm
+            d = np.roll(a, -1, axis=0) - a
+            t = np.clip(np.einsum("ij,ij->i", p - a, d) / np.einsum("ij,ij->i", d, d), 0.0, 1.0)
+            dist = np.hypot(*(a + t[:, None] * d - p).T)
+            j = int(np.argmin(dist))
+            if dist[j] < best[0]:
+                best = (float(dist[j]), k, j, float(t[j]))
+        dist, k, j, t = best
+        h = float(field(p[None, :])[0])
+        if bool(shapely.contains_xy(polygon, p[0], p[1])) and dist >= 0.25 * h:
+            inner.append(p)
+            continue
+        if t < 0.15 or t > 0.85:
+            continue  # the segment's end, already a boundary node
+        a = out[k].points_mm
+        q = a[j] + t * (a[(j + 1) % len(a)] - a[j])
+        out[k] = TaggedRing(np.insert(a, j + 1, q, axis=0), out[k].tag, out[k].is_hole)
+    return out, np.array(inner, dtype=float).reshape(-1, 2)
 
 
 def _estimate_nodes(reg: Region, field: SizeField, boundary_nodes: int) -> float:
@@ -249,6 +338,8 @@ def mesh_rings(
     min_size_mm: float | None = None,
     grading: float = 0.3,
     max_nodes: int | None = None,
+    fixed_points_mm: np.ndarray | None = None,
+    size_points: np.ndarray | None = None,
 ) -> Mesh:
     """Triangle mesh of the region bounded by ``rings`` (one outline, any number of holes).
 
@@ -272,6 +363,21 @@ def mesh_rings(
     if not grading > 0.0:
         raise ValueError(f"grading must be positive, got {grading!r}")
     field = boundary_size_field(reg.seg_a, reg.seg_b, h0, hmin, grading)
+    extra = np.zeros((0, 3)) if size_points is None else \
+        np.asarray(size_points, dtype=float).reshape(-1, 3)
+    fixed = np.zeros((0, 2))
+    if fixed_points_mm is not None and len(fixed_points_mm):
+        # A point a little off the boundary gets elements small enough to stay where it is.
+        fp = np.asarray(fixed_points_mm, dtype=float).reshape(-1, 2)
+        gap = shapely.distance(reg.polygon.boundary, shapely.points(fp))
+        near = (gap > hmin / 3.5) & (gap < 0.25 * field(fp))
+        extra = np.vstack([extra, np.column_stack([fp[near], 3.5 * gap[near]])])
+        probe = field.with_points(extra[:, :2], extra[:, 2]) if len(extra) else field
+        rings, fixed = _points_onto_rings(rings, fp, probe, reg.polygon)
+        reg = region_of(rings)
+        field = boundary_size_field(reg.seg_a, reg.seg_b, h0, hmin, grading)
+    if len(extra):
+        field = field.with_points(extra[:, :2], extra[:, 2])
     bnodes, segs, tags = discretize_boundary(reg, field)
     if max_nodes is not None:
         estimate = _estimate_nodes(reg, field, len(bnodes))
@@ -280,8 +386,8 @@ def mesh_rings(
                 f"mesh would have about {estimate:,.0f} nodes, more than max_nodes={max_nodes:,}; "
                 "use a larger size_mm or min_size_mm, or raise max_nodes"
             )
-    inner = _interior_nodes(reg, field, bnodes, segs)
-    work = _Work(bnodes, segs, tags, inner)
+    inner = _interior_nodes(reg, field, bnodes, segs, fixed)
+    work = _Work(np.vstack([bnodes, fixed]), segs, tags, inner)
     tri = _recover_and_smooth(work, reg, field)
     return _finish(work, tri, reg.tag_names)
 

@@ -13,6 +13,7 @@ All lengths in mm.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 
 import numpy as np
 import shapely
@@ -23,7 +24,10 @@ from platewright.geometry.model import Plate
 from platewright.geometry.plate.curves import Contour, segment_arc
 from platewright.geometry.plate.cutpaths import part_contours
 
-__all__ = ["sample_contour", "plate_rings"]
+__all__ = ["SizeAt", "sample_contour", "plate_rings"]
+
+#: Local element size: points (k, 2) mm -> sizes (k,) mm.
+SizeAt = Callable[[np.ndarray], np.ndarray]
 
 #: Sagitta allowed on an arc chord, as a fraction of the chord's size limit.
 CHORD_FRACTION = 1.0 / 50.0
@@ -31,12 +35,26 @@ CHORD_FRACTION = 1.0 / 50.0
 _MIN_GAP_FRACTION = 1e-3
 
 
-def sample_contour(contour: Contour, size_mm: float) -> np.ndarray:
+def _arc_step_rad(size_mm: float | np.ndarray, r: float) -> np.ndarray:
+    """Largest angle step (rad) on an arc of radius r for chords no longer than
+    ``s = min(size, FEATURE_FRACTION * r)`` with a sagitta of at most ``s / 50``."""
+    s = np.minimum(np.asarray(size_mm, dtype=float), FEATURE_FRACTION * r)
+    tol = CHORD_FRACTION * s
+    step_len = 2.0 * np.arcsin(np.minimum(1.0, s / (2.0 * r)))
+    step_tol = 2.0 * np.arccos(np.maximum(-1.0, 1.0 - tol / r))
+    return np.minimum(step_len, step_tol)
+
+
+def sample_contour(contour: Contour, size_mm: float,
+                   size_at: SizeAt | None = None) -> np.ndarray:
     """Points of a contour for meshing: (n, 2) float, mm, open ring, in the contour's direction.
 
     Straight segments give their start vertex only (the mesher subdivides them). An arc of
     radius r gets chords no longer than ``s = min(size_mm, FEATURE_FRACTION * r)`` and with a
-    sagitta of at most ``s / 50``; every point lies exactly on the arc.
+    sagitta of at most ``s / 50``; every point lies exactly on the arc. ``size_at`` (points
+    (k, 2) mm -> sizes (k,) mm) lowers ``size_mm`` locally: where the mesh is refined the arc
+    is sampled finer too (the angle steps follow the local size), so the polygon that stands
+    for the arc has no corner coarser than the elements beside it.
     """
     out: list[np.ndarray] = []
     for p0, p1, b in contour.segments():
@@ -45,14 +63,30 @@ def sample_contour(contour: Contour, size_mm: float) -> np.ndarray:
             continue
         arc = segment_arc(np.asarray(p0, dtype=float), np.asarray(p1, dtype=float), b)
         r = arc.radius
-        s = min(size_mm, FEATURE_FRACTION * r)
-        tol = CHORD_FRACTION * s
-        step_len = 2.0 * math.asin(min(1.0, s / (2.0 * r)))
-        step_tol = 2.0 * math.acos(max(-1.0, 1.0 - tol / r))
-        n = max(2, int(math.ceil(abs(arc.sweep_rad) / min(step_len, step_tol) - 1e-9)))
-        t = arc.start_rad + arc.sweep_rad * np.arange(1, n) / n
-        out.append(np.column_stack([arc.center[0] + r * np.cos(t), arc.center[1] + r * np.sin(t)]))
+        sweep = abs(arc.sweep_rad)
+        if size_at is None:
+            n = max(2, int(math.ceil(sweep / float(_arc_step_rad(size_mm, r)) - 1e-9)))
+            frac = np.arange(1, n) / n
+        else:
+            # Equidistribute the angle in units of the local step (as the mesher does along
+            # straight segments): a fine probe of the arc, then n points at equal shares.
+            probe = max(64, int(math.ceil(sweep / float(_arc_step_rad(
+                float(np.min(size_at(_arc_points(arc, np.linspace(0, 1, 65))))), r)) * 4)))
+            u = np.linspace(0.0, 1.0, probe + 1)
+            h = np.minimum(size_mm, size_at(_arc_points(arc, u)))
+            dens = sweep / _arc_step_rad(h, r)  # steps per unit of u
+            g = np.concatenate([[0.0], np.cumsum(0.5 * (dens[1:] + dens[:-1]) * np.diff(u))])
+            n = max(2, int(math.ceil(g[-1] - 1e-9)))
+            frac = np.interp(g[-1] * np.arange(1, n) / n, g, u)
+        out.append(_arc_points(arc, frac))
     return np.vstack(out)
+
+
+def _arc_points(arc, frac: np.ndarray) -> np.ndarray:
+    """Points (k, 2) mm at fractions ``frac`` (k,) of an arc's sweep."""
+    t = arc.start_rad + arc.sweep_rad * np.asarray(frac, dtype=float)
+    return np.column_stack([arc.center[0] + arc.radius * np.cos(t),
+                            arc.center[1] + arc.radius * np.sin(t)])
 
 
 def _drop_close(points: np.ndarray, gap_mm: float) -> np.ndarray:
@@ -99,11 +133,13 @@ def _merge(polys: list[shapely.Polygon], gap_mm: float) -> shapely.Polygon:
     return u
 
 
-def plate_rings(plate: Plate, size_mm: float) -> list[TaggedRing]:
+def plate_rings(plate: Plate, size_mm: float, size_at: SizeAt | None = None
+                ) -> list[TaggedRing]:
     """Tagged rings of the plate's as-cut material, outline first, for :func:`mesh_rings`.
 
-    ``size_mm``: the element size the mesh will use, mm (sets the arc sampling). Raises
-    ValueError when the material is not one connected piece with one outline.
+    ``size_mm``: the element size the mesh will use, mm (sets the arc sampling); ``size_at``:
+    optional local sizes (see :func:`sample_contour`). Raises ValueError when the material is
+    not one connected piece with one outline.
     """
     if not size_mm > 0.0:
         raise ValueError(f"size_mm must be positive, got {size_mm!r}")
@@ -111,7 +147,7 @@ def plate_rings(plate: Plate, size_mm: float) -> list[TaggedRing]:
     outer: list[tuple[str, np.ndarray]] = []
     holes: list[tuple[str, np.ndarray]] = []
     for fid, contour in part_contours(plate):
-        pts = _drop_close(sample_contour(contour, size_mm), gap)
+        pts = _drop_close(sample_contour(contour, size_mm, size_at), gap)
         (outer if contour.is_ccw() else holes).append((fid, pts))
     if len(outer) != 1:
         raise ValueError(

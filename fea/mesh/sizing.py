@@ -153,6 +153,7 @@ class SizeField:
         pts = np.asarray(points_mm, dtype=float).reshape(-1, 2)
         small = sizes < self.max_size_mm * (1.0 - 1e-12)
         pts, sizes = pts[small], sizes[small]
+        self._points, self._sizes = pts, sizes
         self._bands: list[tuple[cKDTree, np.ndarray, float]] = []  # tree, sizes, smallest
         if len(sizes):
             level = _size_bands(sizes, self.min_size_mm)
@@ -160,6 +161,13 @@ class SizeField:
                 sel = level == lev
                 s = sizes[sel]
                 self._bands.append((cKDTree(pts[sel]), s, float(s.min())))
+
+    def with_points(self, points_mm: np.ndarray, sizes_mm: np.ndarray) -> SizeField:
+        """A field that also asks for ``sizes_mm`` (k,) float at ``points_mm`` (k, 2) float, mm
+        (local refinement), graded the same way; sizes below ``min_size_mm`` lower it."""
+        pts = np.vstack([self._points, np.asarray(points_mm, dtype=float).reshape(-1, 2)])
+        sizes = np.concatenate([self._sizes, np.asarray(sizes_mm, dtype=float).ravel()])
+        return SizeField(pts, sizes, self.max_size_mm, self.min_size_mm, self.grading)
 
     @property
     def is_uniform(self) -> bool:
