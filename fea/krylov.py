@@ -64,7 +64,9 @@ def solve_cg(
     meets tol or ten times that floor.
     """
     norm_b = np.sqrt(_dot(b, b))
-    norm_a = float(abs(a).sum(axis=0).max())
+    # ||A||_1 of the symmetric A = largest row sum of |A|, without a copy of A
+    norm_a = float(np.bincount(np.repeat(np.arange(a.shape[0]), np.diff(a.indptr)),
+                               weights=np.abs(a.data), minlength=a.shape[0]).max(initial=0.0))
     x = np.zeros_like(b)
     iterations = 0
     rel = floor = 1.0

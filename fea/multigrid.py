@@ -103,7 +103,9 @@ def membrane_layout(tri6: np.ndarray, n_vertices: int) -> MultigridLayout:
         n_vertices=int(n_vertices),
         vertex_edges=_unique_edges(t6),
         midside_ends=ends[first],
+        inner_steps=2,
         direct_limit=30_000,
+        coarsest_nodes=1000,
     )
 
 
@@ -132,7 +134,7 @@ def plate_layout(nodes: np.ndarray, triangles: np.ndarray) -> MultigridLayout:
         n_vertices=int(np.asarray(nodes).shape[0]),
         vertex_edges=_unique_edges(triangles),
         extra_modes=curvature_modes(nodes),
-        inner_steps=2,
+        inner_steps=3,
         direct_limit=60_000,
     )
 
@@ -224,9 +226,17 @@ def _tentative(owner_of_dof: np.ndarray, n_agg: int, b: np.ndarray):
 
 def _smoothed(a: sp.csr_matrix, t: sp.csr_matrix) -> sp.csr_matrix:
     """P = (I - omega D^-1 A) T with D the row sums of |A| (local Jacobi weights)."""
-    d = np.asarray(abs(a).sum(axis=1)).ravel()
+    d = _abs_row_sums(a)
     d[d == 0.0] = 1.0
-    return (t - sp.diags(_OMEGA / d) @ (a @ t)).tocsr()
+    at = (a @ t).tocsr()
+    at.data *= np.repeat(-_OMEGA / d, np.diff(at.indptr))
+    return (t + at).tocsr()
+
+
+def _abs_row_sums(a: sp.csr_matrix) -> np.ndarray:
+    """Row sums of |A| without a copy of the matrix, (n,) float."""
+    return np.bincount(np.repeat(np.arange(a.shape[0]), np.diff(a.indptr)),
+                       weights=np.abs(a.data), minlength=a.shape[0])
 
 
 @dataclass
