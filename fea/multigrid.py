@@ -104,7 +104,7 @@ def membrane_layout(tri6: np.ndarray, n_vertices: int) -> MultigridLayout:
         vertex_edges=_unique_edges(t6),
         midside_ends=ends[first],
         inner_steps=2,
-        direct_limit=30_000,
+        direct_limit=10_000,
         coarsest_nodes=1000,
     )
 
