@@ -29,7 +29,8 @@ RUNS: list[tuple[str, str, str, list[str]]] = [
     ("bench_membrane.py", "small", "50k unknowns", ["--sizes", "50000"]),
     ("bench_membrane.py", "large", "200k and 1M unknowns", ["--sizes", "200000", "1000000"]),
     ("bench_bending.py", "small", "10k and 30k unknowns", ["--cells", "57", "99"]),
-    ("bench_bending.py", "large", "250k and 1M unknowns", ["--cells", "288", "576"]),
+    ("bench_bending.py", "large", "30k, 250k and 1M unknowns, multigrid paired with direct",
+     ["--cells", "99", "288", "576", "--method", "amg", "--direct-max", "600000"]),
     ("bench_topopt.py", "small", "3 mm elements", ["--sizes", "3.0"]),
     ("bench_topopt.py", "large", "2 mm elements", ["--sizes", "2.0"]),
     ("bench_lighten.py", "small", "one margin, pattern style",
@@ -81,7 +82,8 @@ def main(argv: list[str] | None = None) -> int:
         summary.append(f"| {script} | {which}: {label} | {wall:.1f} | {res.returncode} | "
                        f"{targets or '-'} |")
         tail = "" if res.returncode == 0 else "\n" + "\n".join(res.stderr.splitlines()[-5:])
-        blocks.append(f"### {script} ({which}: {label})\n\n```\n$ {' '.join(cmd[1:])}\n"
+        shown = " ".join(["python", f"benchmarks/{script}", *extra])
+        blocks.append(f"### {script} ({which}: {label})\n\n```\n$ {shown}\n"
                       f"{out}{tail}\n```\n")
     report = [
         "# Benchmark results",

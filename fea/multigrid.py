@@ -135,7 +135,7 @@ def plate_layout(nodes: np.ndarray, triangles: np.ndarray) -> MultigridLayout:
         vertex_edges=_unique_edges(triangles),
         extra_modes=curvature_modes(nodes),
         inner_steps=3,
-        direct_limit=60_000,
+        direct_limit=500_000,
     )
 
 
