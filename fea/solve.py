@@ -9,7 +9,9 @@ combination of modes that the supports leave free is reported by name and the so
 Solvers: a sparse LU factorisation (SuperLU, minimum-degree ordering on A^T + A) for small systems,
 and smoothed-aggregation algebraic multigrid (pyamg) as a preconditioner for conjugate gradients
 for large ones, with the rigid-body modes restricted to the free dofs as the near-nullspace
-(Vanek, Mandel and Brezina, Computing 56 (1996) 179-196).
+(Vanek, Mandel and Brezina, Computing 56 (1996) 179-196). With a ``layout`` (fea.multigrid) the
+multigrid knows the mesh: p-coarsening for quadratic elements, aggregation on the vertex graph,
+and a direct/multigrid limit measured for each element family.
 """
 
 from __future__ import annotations
