@@ -25,6 +25,7 @@ from platewright.fea.elements.quadratic import QuadraticMesh, quadratic_mesh
 from platewright.fea.loadcases.mapping import MappedCase, map_case
 from platewright.fea.loadcases.parse import Component, LoadCase
 from platewright.fea.mesh.triangles import Mesh
+from platewright.fea.multigrid import membrane_layout, plate_layout
 from platewright.fea.recovery import GAUSS_AREA_COORDS, patch_recovery
 from platewright.fea.solve import (
     ConvergenceError,
@@ -129,13 +130,16 @@ def _solve(case: LoadCase, mesh: Mesh, quad: QuadraticMesh | None, mapped: Mappe
         ke = dkt.dkt_stiffness(mesh.nodes, mesh.triangles, dmat)
         k = assemble_matrix(ke, element_dofs(mesh.triangles, 3), 3 * mesh.n_nodes)
         modes, names = bending_rigid_modes(mesh.nodes), BENDING_MODE_NAMES
+        layout = plate_layout(mesh.nodes, mesh.triangles)
     else:
         k = membrane.assemble_stiffness(quad.nodes, quad.tri6, dmat, thickness_mm)
         modes = membrane_rigid_modes(quad.nodes, tuple(quad.nodes.mean(axis=0)))
         names = MEMBRANE_MODE_NAMES
+        layout = membrane_layout(quad.tri6, quad.n_vertices)
     t1 = time.perf_counter()
     args = (k, mapped.f, mapped.fixed_dofs, mapped.fixed_values)
-    kw = {"rigid_modes": modes, "mode_names": names, "spring_matrix": mapped.spring_matrix}
+    kw = {"rigid_modes": modes, "mode_names": names, "spring_matrix": mapped.spring_matrix,
+          "layout": layout}
     nodes = mesh.nodes if bending else quad.nodes
     dpn = 3 if bending else 2
     fell_back = False

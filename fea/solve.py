@@ -20,7 +20,9 @@ stable factorisation gives round-off level (~1e-16) whatever the conditioning, s
 Solvers: a sparse LU factorisation (SuperLU, minimum-degree ordering on A^T + A) for small systems,
 and smoothed-aggregation algebraic multigrid (pyamg) as a preconditioner for conjugate gradients
 for large ones, with the rigid-body modes restricted to the free dofs as the near-nullspace
-(Vanek, Mandel and Brezina, Computing 56 (1996) 179-196).
+(Vanek, Mandel and Brezina, Computing 56 (1996) 179-196). With a ``layout`` (fea.multigrid) the
+multigrid knows the mesh: p-coarsening for quadratic elements, aggregation on the vertex graph,
+and a direct/multigrid limit measured for each element family.
 """
 
 from __future__ import annotations
@@ -33,6 +35,8 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
+
+from platewright.fea.multigrid import MultigridLayout
 
 __all__ = [
     "AUTO_DIRECT_LIMIT",
@@ -393,6 +397,25 @@ def _solve_amg(
     return x, iterations
 
 
+def _solve_layout(
+    a: sp.csr_matrix, b: np.ndarray, free: np.ndarray, modes: np.ndarray,
+    layout: MultigridLayout, tol: float, maxiter: int,
+) -> tuple[np.ndarray, int]:
+    """Multigrid of fea.multigrid (p-coarsening and vertex aggregation) with CG; (x, iterations)."""
+    from platewright.fea.krylov import solve_cg
+    from platewright.fea.multigrid import build_hierarchy
+
+    hierarchy = build_hierarchy(a, free, modes, layout)
+    x, iterations, rel, floor = solve_cg(a, b, hierarchy.apply, tol, maxiter,
+                                         flexible=layout.inner_steps > 0)
+    if not np.isfinite(rel) or (rel > 10.0 * tol and rel > 100.0 * floor):
+        raise ConvergenceError(
+            f"multigrid-preconditioned CG stopped at relative residual {rel:.3g} after "
+            f"{iterations} iterations (asked for {tol:.1g})"
+        )
+    return x, iterations
+
+
 def solve_system(
     K: sp.spmatrix,
     f: np.ndarray,
@@ -405,6 +428,7 @@ def solve_system(
     tol: float = 1e-10,
     spring_matrix: sp.spmatrix | None = None,
     maxiter: int = 1000,
+    layout: MultigridLayout | None = None,
 ) -> Solution:
     """Solve ``(K + S) u = f`` with ``u[fixed_dofs] = fixed_values``.
 
@@ -416,6 +440,9 @@ def solve_system(
     tol: relative residual ||b - A x|| / ||b|| at which CG stops (multigrid only).
     spring_matrix: optional (n, n) sparse elastic-support stiffness S (N/mm).
     maxiter: largest number of CG iterations.
+    layout: how the unknowns sit on the mesh (fea.multigrid.membrane_layout / plate_layout);
+        with it, "amg" uses p-coarsening and vertex aggregation and "auto" the layout's direct
+        limit; without it, pyamg's smoothed aggregation on the matrix alone.
     Raises UnderSupportedError naming the free motions before any factorisation, MechanismError
     when a connected part of the structure is left free (also before factorising),
     ConvergenceError when CG does not converge, InaccurateSolveError (a ConvergenceError) when
@@ -454,14 +481,18 @@ def solve_system(
     a_ff = a_rows[:, free].tocsr()
     chosen = method
     if chosen == "auto":
-        chosen = "direct" if free.size < AUTO_DIRECT_LIMIT else "amg"
+        limit = AUTO_DIRECT_LIMIT if layout is None else layout.direct_limit
+        chosen = "direct" if free.size < limit else "amg"
     iterations = 0
     eta = 0.0
     if free.size and np.any(b != 0.0):
         if chosen == "direct":
             u[free], eta = _solve_direct(a_ff, b)
         else:
-            u[free], iterations = _solve_amg(a_ff, b, modes[free], tol, maxiter)
+            if layout is not None:
+                u[free], iterations = _solve_layout(a_ff, b, free, modes, layout, tol, maxiter)
+            else:
+                u[free], iterations = _solve_amg(a_ff, b, modes[free], tol, maxiter)
             eta = backward_error(a_ff, u[free], b)
 
     reactions = np.zeros(n)

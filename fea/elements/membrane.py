@@ -134,36 +134,54 @@ def stiffness_matrices(
     """
     conn = np.asarray(conn)
     m, k = conn.shape
-    pts, w = gauss_points(k)
-    grad, det = _gradients(nodes, conn, pts)  # (m, q, k, 2)
     t = _per_element(thickness_mm, m, "thickness_mm")
     d = np.asarray(d_mpa, dtype=float)
-    # K[a c, b d] = sum_q w_q t det J sum_{l n} dN_a/dx_l E[c l d n] dN_b/dx_n, where
-    # E[c l d n] = sum_ij S[i c l] D[i j] S[j d n] is D in tensor form (S picks Voigt rows).
+    out = np.empty((m, 2 * k, 2 * k))
+    # blocks of elements keep the temporaries small (fresh large arrays cost page faults:
+    # measured 1.5x slower in one piece at 1M unknowns); not a loop over elements
+    for s0 in range(0, m, _BLOCK):
+        s1 = min(m, s0 + _BLOCK)
+        dd = d if d.ndim == 2 else d[s0:s1]
+        _stiffness_block(nodes, conn[s0:s1], dd, t[s0:s1], out[s0:s1])
+    return out
+
+
+#: Elements per block in stiffness_matrices.
+_BLOCK = 8192
+
+
+def _stiffness_block(nodes, conn, d, t, out) -> None:
+    """Element matrices of one block of elements into ``out`` (b, 2k, 2k)."""
+    m, k = conn.shape
+    pts, w = gauss_points(k)
+    grad, det = _gradients(nodes, conn, pts)  # (m, q, k, 2)
     ws = (t * det)[:, None] * w[None, :]  # (m, q)
-    g = [grad[..., 0], grad[..., 1]]  # dN/dx, dN/dy: (m, q, k) each
-    h = {
-        (l, n): np.einsum("eqa,eqb->eab", g[l] * ws[:, :, None], g[n])
-        for l in range(2)
-        for n in range(2)
-    }  # four (m, k, k) blocks, not a loop over elements
+    # H[e, (a l), (b n)] = sum_q w_q t det J dN_a/dx_l dN_b/dx_n: one batched (2k x q)(q x 2k)
+    # product per element, laid out like the element matrix (node-major, component-minor).
+    g = grad.reshape(m, pts.shape[0], 2 * k)
+    h = np.matmul((g * ws[:, :, None]).transpose(0, 2, 1), g).reshape(m, k, 2, k, 2)
     if d.ndim == 2:
         e4 = np.einsum("icl,ij,jdn->cldn", _VOIGT, d, _VOIGT)
     else:
         e4 = np.einsum("icl,eij,jdn->cldne", _VOIGT, d, _VOIGT)
-    out = np.empty((m, 2 * k, 2 * k))
+    # K[e, a c, b d] = sum_{l n} H[e, a l, b n] E[c l d n], E = D in tensor form (S picks the
+    # Voigt rows); written on strided views of the same layout.
+    o5 = out.reshape(m, k, 2, k, 2)
+    o5[...] = 0.0
+    tmp = np.empty((m, k, k))
     for c in range(2):
         for dd in range(2):
-            acc = np.zeros((m, k, k))
-            for (l, n), block in h.items():
-                coef = e4[c, l, dd, n]
-                if d.ndim == 2:
-                    if coef != 0.0:
-                        acc += coef * block
-                else:
-                    acc += coef[:, None, None] * block
-            out[:, c::2, dd::2] = acc
-    return out
+            view = o5[:, :, c, :, dd]
+            for ll in range(2):
+                for n in range(2):
+                    coef = e4[c, ll, dd, n]
+                    if d.ndim == 2:
+                        if coef == 0.0:
+                            continue
+                        np.multiply(h[:, :, ll, :, n], coef, out=tmp)
+                    else:
+                        np.multiply(h[:, :, ll, :, n], coef[:, None, None], out=tmp)
+                    view += tmp
 
 
 def assemble_stiffness(
