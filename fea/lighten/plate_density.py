@@ -256,6 +256,20 @@ class PlateDensityModel:
             grad -= (w / c0) * dstiff * ce
         return float(obj), grad
 
+    def case_responses(self, x_phys: np.ndarray, *, penal: float = 3.0,
+                       emin_ratio: float = 1e-9) -> tuple[np.ndarray, np.ndarray]:
+        """Compliance of every case, (k,) float N mm, and its sensitivity d c_k / d x_e,
+        (k, m) float, at densities x_phys (m,) float (one solve per case)."""
+        x = self._checked(x_phys)
+        dstiff = penal * (1.0 - emin_ratio) * x ** (penal - 1.0)
+        values = np.zeros(len(self._cases))
+        grads = np.zeros((len(self._cases), self.n_elements))
+        for k, s in enumerate(self._cases):
+            values[k], u = self._solve(s, x, penal, emin_ratio)
+            ue = u[s.edof]
+            grads[k] = -dstiff * np.einsum("ei,eij,ej->e", ue, s.ke0, ue, optimize=True)
+        return values, grads
+
     def deflections(self, x_phys: np.ndarray, *, penal: float = 3.0,
                     emin_ratio: float = 1e-9) -> dict[str, float]:
         """Largest nodal deflection of every case, mm, at densities x_phys (m,) float.
