@@ -32,7 +32,10 @@ import scipy.sparse as sp
 from platewright.fea.lighten.mma import MMAState, mma_update
 from platewright.fea.lighten.simp import TopOptSettings, density_filter
 
-__all__ = ["CaseModel", "MinMassResult", "minimise_mass"]
+__all__ = ["CaseModel", "MinMassResult", "Responses", "minimise_mass"]
+
+#: Physical densities (m,) -> (one measure per case (k,), its sensitivities (k, m)).
+Responses = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]
 
 
 class CaseModel(Protocol):
@@ -60,17 +63,17 @@ class MinMassResult:
 
     densities: (m,) float physical densities (passive elements 1). design: (m,) float design
     variables. volume_fraction: share of the design region's volume kept, sum(x~ v) / sum(v)
-    over the design elements (the grey optimum's measure). compliance_ratio: (k,) float
-    c_k / c_k(1) at the result. budgets: (k,) float the b_k used. volume_history,
+    over the design elements (the grey optimum's measure). measure_ratio: (k,) float
+    measure_k / measure_k(1) at the result. budgets: (k,) float the b_k used. volume_history,
     worst_history: per iteration, the volume fraction and max_k c_k / ((1 + b_k) c_k(1)).
     iterations: analyses made. converged: the change fell below tol_change with every
-    constraint met.
+    constraint met. measure_ratio holds the ratio of whatever measure was limited.
     """
 
     densities: np.ndarray
     design: np.ndarray
     volume_fraction: float
-    compliance_ratio: np.ndarray
+    measure_ratio: np.ndarray
     budgets: np.ndarray
     volume_history: tuple[float, ...]
     worst_history: tuple[float, ...]
@@ -85,6 +88,7 @@ def minimise_mass(
     *,
     passive_solid: np.ndarray | None = None,
     start: np.ndarray | None = None,
+    responses: Responses | None = None,
     feasibility_tol: float = 1e-3,
     progress: Callable[[int, float, float], None] | None = None,
 ) -> MinMassResult:
@@ -94,6 +98,9 @@ def minimise_mass(
     b_k). settings: penal, rmin_mm (density filter radius), move, max_iter, tol_change,
     emin_ratio of TopOptSettings (its ``filter`` must be "density"). passive_solid: (m,) bool
     elements kept solid. start: (m,) design variables to start from (default: solid).
+    responses: physical densities (m,) -> (measures (k,), sensitivities (k, m)), the
+    quantities the budgets limit (default: the model's case compliances at the settings'
+    penal and emin_ratio); each is limited to (1 + b_k) times its value for the solid plate.
     feasibility_tol: a constraint counts as met at ``c <= (1 + b)(1 + tol) c(1)``.
     progress: called after every analysis with (iteration, volume fraction, worst constraint
     ratio). See the module text for the method.
@@ -103,7 +110,12 @@ def minimise_mass(
         raise ValueError("minimise_mass uses the density filter")
     m = int(model.n_elements)
     vol = np.asarray(model.element_volume, float)
-    c0 = np.asarray(model.solid_compliance, float)
+    if responses is None:
+        def responses(xp: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+            return model.case_responses(xp, penal=s.penal, emin_ratio=s.emin_ratio)
+    c0 = np.asarray(responses(np.ones(m))[0], float)
+    if np.any(c0 <= 0.0):
+        raise ValueError("a case has no response on the solid plate: nothing to limit")
     k = c0.size
     b = np.broadcast_to(np.asarray(budgets, float), (k,)).copy()
     if np.any(b < 0.0) or not np.all(np.isfinite(b)):
@@ -136,7 +148,7 @@ def minimise_mass(
     ratio = np.ones(k)
     for it in range(1, s.max_iter + 1):
         xp = physical(x)
-        c, dc = model.case_responses(xp, penal=s.penal, emin_ratio=s.emin_ratio)
+        c, dc = responses(xp)
         ratio = np.asarray(c) / c0
         vols.append(float(v_design @ xp) / v_total)
         worst.append(float(np.max(np.asarray(c) / allowed)))
@@ -151,8 +163,8 @@ def minimise_mass(
             converged = True
             break
     xp = physical(x)
-    c, _ = model.case_responses(xp, penal=s.penal, emin_ratio=s.emin_ratio)
+    c, _ = responses(xp)
     return MinMassResult(
         densities=xp, design=x, volume_fraction=float(v_design @ xp) / v_total,
-        compliance_ratio=np.asarray(c) / c0, budgets=b, volume_history=tuple(vols),
+        measure_ratio=np.asarray(c) / c0, budgets=b, volume_history=tuple(vols),
         worst_history=tuple(worst), iterations=it, converged=converged)

@@ -36,7 +36,7 @@ _ELASTIC_COST = 1000.0
 #: Asymptote rules of Svanberg (2007): first distance, widening and narrowing factors.
 _ASY_INIT, _ASY_INCR, _ASY_DECR = 0.5, 1.2, 0.7
 #: Newton steps and gradient tolerance of the dual solve.
-_DUAL_ITER, _DUAL_TOL = 60, 1e-10
+_DUAL_ITER, _DUAL_TOL = 100, 1e-10
 
 
 @dataclass
@@ -109,73 +109,55 @@ def mma_update(
         return np.clip((sp_ * low + sq * upp) / (sp_ + sq), alpha, beta)
 
     def dual(lam: np.ndarray) -> tuple[float, np.ndarray, np.ndarray]:
-        """Dual value, gradient (m,) and Hessian (m, m) at multipliers ``lam``."""
+        """Dual value, gradient (m,) and the primal point (n,) at multipliers ``lam``."""
         xs = primal(lam)
         inv_u, inv_l = 1.0 / (upp - xs), 1.0 / (xs - low)
         y = np.maximum(0.0, lam - _ELASTIC_COST)
         cons = pc @ inv_u + qc @ inv_l - b
         value = float(p0 @ inv_u + q0 @ inv_l + lam @ cons
                       + _ELASTIC_COST * y.sum() + 0.5 * (y @ y) - lam @ y)
+        return value, cons - y, xs
+
+    def hessian(lam: np.ndarray, xs: np.ndarray) -> np.ndarray:
+        """Dual Hessian (m, m), negative semi-definite (only variables inside their bounds
+        move with the multipliers)."""
         free = (xs > alpha) & (xs < beta)
-        dfx = (pc * inv_u**2 - qc * inv_l**2)[:, free]  # d f~_i / d x_j
-        curv = (2.0 * (p0 + lam @ pc) * inv_u**3 + 2.0 * (q0 + lam @ qc) * inv_l**3)[free]
-        hess = -(dfx / curv) @ dfx.T - np.diag((lam > _ELASTIC_COST).astype(float))
-        return value, cons - y, hess
+        inv_u, inv_l = 1.0 / (upp[free] - xs[free]), 1.0 / (xs[free] - low[free])
+        dfx = pc[:, free] * inv_u**2 - qc[:, free] * inv_l**2  # d f~_i / d x_j
+        curv = 2.0 * (p0[free] + lam @ pc[:, free]) * inv_u**3 \
+            + 2.0 * (q0[free] + lam @ qc[:, free]) * inv_l**3
+        return -(dfx / curv) @ dfx.T - np.diag((lam > _ELASTIC_COST).astype(float))
 
-    def coordinate(lam: np.ndarray, i: int) -> np.ndarray:
-        """``lam`` with multiplier i maximising the dual alone (bisection on its derivative,
-        which falls as lam_i grows: the dual is concave)."""
-        out = lam.copy()
-        out[i] = 0.0
-        if dual(out)[1][i] <= 0.0:
-            return out
-        lo, hi = 0.0, max(1.0, 2.0 * lam[i])
-        out[i] = hi
-        while dual(out)[1][i] > 0.0 and hi < 1e12:
-            lo, hi = hi, 2.0 * hi
-            out[i] = hi
-        for _ in range(60):
-            out[i] = 0.5 * (lo + hi)
-            if dual(out)[1][i] > 0.0:
-                lo = out[i]
-            else:
-                hi = out[i]
-            if hi - lo <= 1e-12 * max(1.0, hi):
-                break
-        out[i] = 0.5 * (lo + hi)
-        return out
-
+    # Projected Newton ascent on the concave dual: multipliers at 0 whose dual falls stay at 0;
+    # the others take a Newton step, regularised where the dual is flat (every variable at a
+    # bound), limited to a trust region that doubles the multipliers at most, and shortened
+    # until the dual rises.
     lam = state.multipliers.copy() if state.multipliers.shape == (m,) else np.zeros(m)
     lam = np.maximum(lam, 0.0)
-    value, grad, hess = dual(lam)
+    value, grad, xs = dual(lam)
     for _ in range(_DUAL_ITER):
         act = (lam > 0.0) | (grad > 0.0)
         if not act.any() or np.abs(grad[act]).max() <= _DUAL_TOL:
             break
-        # Projected Newton ascent on the concave dual (multipliers at 0 with a falling dual
-        # stay there), shortened until the dual rises; where the dual is locally flat in some
-        # direction (no variable strictly inside its bounds) one sweep of exact coordinate
-        # ascent instead.
-        trial = None
-        h = hess[np.ix_(act, act)]
-        if np.all(np.isfinite(h)) and np.linalg.cond(h) < 1e12:
-            step = np.zeros(m)
-            step[act] = -np.linalg.solve(h, grad[act])
-            t = 1.0
-            for _ in range(30):
-                cand = np.maximum(lam + t * step, 0.0)
-                if dual(cand)[0] >= value:
-                    trial = cand
-                    break
-                t *= 0.5
-        if trial is None:
-            trial = lam
-            for i in range(m):
-                trial = coordinate(trial, i)
-        if np.abs(trial - lam).max() <= 1e-14 * max(1.0, np.abs(lam).max()):
+        h = hessian(lam, xs)[np.ix_(act, act)]
+        tau = 1e-10 * (1.0 + float(np.abs(np.diag(h)).max()))
+        step = np.zeros(m)
+        step[act] = np.linalg.solve(tau * np.eye(h.shape[0]) - h, grad[act])
+        reach = max(1.0, 2.0 * float(np.abs(lam).max()))
+        big = float(np.abs(step).max())
+        if big > reach:
+            step *= reach / big
+        t, moved = 1.0, False
+        for _ in range(40):
+            trial = np.maximum(lam + t * step, 0.0)
+            tv, tg, tx = dual(trial)
+            if tv > value:
+                moved = True
+                break
+            t *= 0.5
+        if not moved:
             break
-        lam = trial
-        value, grad, hess = dual(lam)
+        lam, value, grad, xs = trial, tv, tg, tx
     xnew = np.where(xmax > xmin, primal(lam), x)
     state.xold2, state.xold1 = state.xold1, x.copy()
     state.low, state.upp = low, upp

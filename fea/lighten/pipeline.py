@@ -44,6 +44,11 @@ import numpy as np
 import shapely
 
 from platewright.fea.analysis import analyse_plate, total_vehicle_mass_g
+from platewright.fea.lighten.budget import (
+    budget_utilisation,
+    case_budgets,
+    meets_budget,
+)
 from platewright.fea.lighten.design_region import (
     DesignRegion,
     LighteningSettings,
@@ -52,7 +57,7 @@ from platewright.fea.lighten.design_region import (
     settings_from_mapping,
 )
 from platewright.fea.lighten.plate_density import PlateDensityModel
-from platewright.fea.lighten.results import Candidate, LighteningResult
+from platewright.fea.lighten.results import Candidate, DensityField, LighteningResult
 from platewright.fea.lighten.search import (
     RULES_FOR_NEW_HOLES,
     Progress,
@@ -63,6 +68,7 @@ from platewright.fea.lighten.search import (
     refine_hole_sets,
     with_holes,
 )
+from platewright.fea.lighten.min_mass import minimise_mass
 from platewright.fea.lighten.simp import TopOptSettings, optimise
 from platewright.fea.lighten.tracing import hole_features, level_thresholds, mirror_lines, symmetrised
 from platewright.fea.loadcases.parse import Component, LoadCase, parse_loads
@@ -102,30 +108,74 @@ def _volume_fraction(slack: float) -> float:
     return float(np.clip(slack ** (-1.0 / 3.0) - 0.1, 0.35, 0.85))
 
 
+#: Exponent of the P-norm that stands for each case's largest deflection in the optimiser.
+_DEFLECTION_POWER = 24.0
+#: Mesh grading (mm per mm) of the budget optimiser's mesh (fea.mesh default 0.3).
+_FAST_GRADING = 0.6
+#: Density filter radius of the budget optimiser, in element sizes (at least one web).
+_FILTER_PER_SIZE = 1.25
+
+
 def _densities(job: SearchJob, region: DesignRegion, slack: float,
-               settings: LighteningSettings) -> tuple[np.ndarray, np.ndarray, np.ndarray, int, float]:
-    """(nodes (n, 2), triangles (m, 3), densities (m,), optimiser iterations, volume fraction)."""
+               settings: LighteningSettings, budgets: Mapping[str, float] | None
+               ) -> tuple[np.ndarray, np.ndarray, np.ndarray, int, float, float]:
+    """(nodes (n, 2), triangles (m, 3), densities (m,), optimiser iterations, volume fraction
+    of the design region, mass share the grey densities remove from the plate).
+
+    budgets (case -> b_k): least mass with every case's deflection within its budget
+    (fea.lighten.min_mass); None: least compliance at a volume share chosen from the slack of
+    the limits (fea.lighten.simp)."""
     s = region.settings
     h = float(s.mesh_size_mm)
-    mesh = mesh_rings(plate_rings(job.plate, h), h)
+    # The budget path grades the mesh faster away from small holes (they lie in keep-outs):
+    # about 40 % fewer elements for the same size in the design region.
+    mesh = mesh_rings(plate_rings(job.plate, h), h) if budgets is None else \
+        mesh_rings(plate_rings(job.plate, h), h, grading=_FAST_GRADING)
     model = PlateDensityModel(job.plate, mesh, job.cases, components=job.components,
                               vehicle_mass_g=job.vehicle_mass_g)
     cx, cy = model.centroids[:, 0], model.centroids[:, 1]
     free = shapely.contains_xy(region.free, cx, cy) if not region.free.is_empty else \
         np.zeros(model.n_elements, bool)
+    if budgets is not None:
+        free &= ~model.attached_elements()
     passive = ~free
     if passive.all():
-        return mesh.nodes, mesh.triangles, np.ones(model.n_elements), 0, 1.0
-    vf = _volume_fraction(slack)
-    top = TopOptSettings(rmin_mm=max(2.0 * h, 2.0 * float(s.corner_radius_mm)),
-                         max_iter=settings.max_iter, tol_change=0.02)
+        return mesh.nodes, mesh.triangles, np.ones(model.n_elements), 0, 1.0, 0.0
+    rmin = max(2.0 * h, 2.0 * float(s.corner_radius_mm))
+    if budgets is not None:  # a filter about one web wide: the smallest member it draws
+        rmin = max(_FILTER_PER_SIZE * h, float(s.min_web_mm))
+    vol = model.element_volume
+    if budgets is None:
+        vf = _volume_fraction(slack)
+        top = TopOptSettings(rmin_mm=rmin, max_iter=settings.max_iter, tol_change=0.02)
 
-    def report(it: int, obj: float, vol: float) -> None:
-        job.say(f"{job.plate.name}: optimiser iteration {it}, objective {obj:.4g}, "
-                f"volume {vol:.3f}")
+        def report(it: int, obj: float, v: float) -> None:
+            job.say(f"{job.plate.name}: optimiser iteration {it}, objective {obj:.4g}, "
+                    f"volume {v:.3f}")
 
-    res = optimise(model, vf, top, passive_solid=passive, progress=report)
-    return mesh.nodes, mesh.triangles, np.asarray(res.densities), res.iterations, vf
+        res = optimise(model, vf, top, passive_solid=passive, progress=report)
+        dens, iterations = np.asarray(res.densities), res.iterations
+    else:
+        # The largest deflection is watched where material always stays (the keep-outs):
+        # inside the design region a void's own displacement means nothing.
+        watch = np.zeros(mesh.n_nodes, bool)
+        watch[mesh.triangles[passive].ravel()] = True
+        b = np.array([budgets[n] for n in model.case_names])
+        top = TopOptSettings(rmin_mm=rmin, max_iter=settings.max_iter, tol_change=0.01)
+
+        def responses(xp: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+            return model.case_deflection_norms(xp, penal=top.penal, emin_ratio=top.emin_ratio,
+                                               power=_DEFLECTION_POWER, watch=watch)
+
+        def report_mm(it: int, v: float, worst: float) -> None:
+            job.say(f"{job.plate.name}: optimiser iteration {it}, volume {v:.3f}, "
+                    f"worst deflection / budget {worst:.4f}")
+
+        mm = minimise_mass(model, b, top, passive_solid=passive, responses=responses,
+                           progress=report_mm)
+        dens, iterations, vf = np.asarray(mm.densities), mm.iterations, mm.volume_fraction
+    saved = float(vol[free] @ (1.0 - dens[free]) / vol.sum())
+    return mesh.nodes, mesh.triangles, dens, iterations, vf, saved
 
 
 def lighten_plate(
@@ -139,7 +189,7 @@ def lighten_plate(
     size_mm: float | None = None,
     method: str = "auto",
     before: PlateAnalysis | None = None,
-    densities: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None,
+    densities: DensityField | tuple[np.ndarray, np.ndarray, np.ndarray] | None = None,
     progress: Progress | None = None,
 ) -> LighteningResult:
     """Lightening holes for ``plate`` that keep every case of ``cases`` within its limits.
@@ -172,26 +222,41 @@ def lighten_plate(
     m0 = mass_properties(plate).mass_g
     cut0 = cut_paths(plate)
     notes: list[str] = []
-    iterations, vf = 0, 1.0
-    density_field = None
+    iterations, vf, grey_saved = 0, 1.0, 0.0
+    density_field: DensityField | None = None
     candidates: list[Candidate] = []
     best: tuple[float, tuple[Feature, ...], Plate, PlateAnalysis] | None = None
+    budget = settings.deflection_budget
+    budgets = case_budgets(before, budget) if budget is not None else None
+
+    def utilisation(analysis: PlateAnalysis) -> float:
+        u = limit_utilisation(analysis)
+        return u if budgets is None else max(u, budget_utilisation(before, analysis, budgets))
+
+    def passes(analysis: PlateAnalysis) -> bool:
+        return analysis.passes and (budgets is None or meets_budget(before, analysis, budgets))
+
     if not before.passes:
         notes.append("the plate as designed already fails a limit: no lightening suggested")
     elif region.free.area < math.pi * (region.settings.min_hole_mm / 2.0) ** 2:
         notes.append("the design region (plate minus keep-outs) is too small for any hole")
     else:
         t0 = time.perf_counter()
-        slack = _slack(before)
         if densities is None:
             job.say(f"{plate.name}: optimising the material layout")
-            nodes, tris, dens, iterations, vf = _densities(job, region, slack, settings)
+            nodes, tris, dens, iterations, vf, grey_saved = _densities(
+                job, region, _slack(before), settings, budgets)
+            density_field = DensityField(nodes, tris, dens, iterations, vf, grey_saved)
+        elif isinstance(densities, DensityField):
+            density_field = densities
+            nodes, tris, dens = densities.nodes, densities.triangles, densities.densities
+            vf, grey_saved = densities.volume_fraction, densities.saved_fraction
         else:
             nodes, tris, dens = densities
-        density_field = (nodes, tris, dens)
+            density_field = DensityField(nodes, tris, dens, 0, vf, grey_saved)
         timings["optimise"] = time.perf_counter() - t0
 
-        u0 = limit_utilisation(before)
+        u0 = utilisation(before)
         mirrors = mirror_lines(region, nodes, tris, dens)
         if mirrors:
             dens = symmetrised(dens, nodes, tris, mirrors)
@@ -208,13 +273,14 @@ def lighten_plate(
             return holes
 
         # Search over the distinct hole sets, ordered by hole area: u(set) is the worst
-        # utilisation of any limit (1 = at the limit). The bracket starts at "no holes" (the
-        # plate as designed, u0) and "beyond the largest set"; each step interpolates u
-        # linearly in hole area to aim just below 1, so about log2(sets) solves suffice.
+        # utilisation of any limit and of the stiffness budget (1 = at the limit). The bracket
+        # starts at "no holes" (the plate as designed, u0) and "beyond the largest set"; each
+        # step interpolates u linearly in hole area to aim just below 1, so about log2(sets)
+        # solves suffice.
         lo, u_lo, a_lo = -1, u0, 0.0
         hi, u_hi, a_hi = len(sets), math.inf, math.inf
         t0 = time.perf_counter()
-        while len(candidates) < settings.max_candidates:
+        while sets and len(candidates) < settings.max_candidates:
             if hi - lo <= 1:  # neighbours in the list: look for a set between them
                 if not refine_hole_sets(sets, lo, hi, style, nodes, tris, dens, region, to_threshold,
                                mirrors):
@@ -238,10 +304,12 @@ def lighten_plate(
                 hi, u_hi, a_hi = i, 10.0, area
                 continue
             mass = mass_properties(holed).mass_g
-            u = limit_utilisation(analysis)
-            candidates.append(Candidate(level, len(kept), mass, analysis.passes,
-                                        failing_cases(analysis), time.perf_counter() - tc))
-            if analysis.passes:
+            u = utilisation(analysis)
+            ok = passes(analysis)
+            candidates.append(Candidate(level, len(kept), mass, ok,
+                                        failing_cases(analysis) or ("" if ok else "budget"),
+                                        time.perf_counter() - tc))
+            if ok:
                 lo, u_lo, a_lo = i, u, area
                 if best is None or mass < best[0] - 1e-9:
                     best = (mass, kept, holed, analysis)
@@ -249,7 +317,9 @@ def lighten_plate(
                 hi, u_hi, a_hi = i, max(u, 1.0 + 1e-9), area
         timings["verify"] = time.perf_counter() - t0
         if best is None:
-            notes.append("no candidate kept every case within its limits: no holes suggested")
+            notes.append("no candidate kept every case within its limits"
+                         + (" and its stiffness budget" if budgets is not None else "")
+                         + ": no holes suggested")
     if best is None:
         holes_out, after_plate, after = (), plate, before
         m1, cut1 = m0, cut0
@@ -264,6 +334,9 @@ def lighten_plate(
         cut_length_after_mm=float(sum(c.path.length() for c in cut1)),
         pierces_before=len(cut0), pierces_after=len(cut1), candidates=tuple(candidates),
         optimiser_iterations=iterations, volume_fraction=vf,
+        deflection_budget=budget, case_budgets=budgets or {},
+        grey_saved_fraction=grey_saved if density_field is not None else None,
+        keep_outs=region.keep_outs, design_region_mm2=region.free_area_mm2,
         design_region_fraction=region.free_fraction,
         pattern_shape=region.settings.pattern_shape if style == "pattern" else "",
         timings_s=timings, notes=tuple(notes), density=density_field)
