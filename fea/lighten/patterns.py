@@ -25,6 +25,7 @@ and the solid zones stay solid); a round hole is also shrunk to keep the edge-di
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
 import shapely
@@ -36,9 +37,21 @@ from platewright.geometry.model import Feature
 from platewright.geometry.plate.features import round_hole, slot
 from platewright.geometry.plate.outlines import polygon_outline
 
-__all__ = ["effective_pitch_mm", "lattice_sites", "site_densities", "pattern_holes"]
+__all__ = ["Layout", "effective_pitch_mm", "lattice_sites", "site_densities", "pattern_holes",
+           "choose_layout"]
 
 _SQRT3 = math.sqrt(3.0)
+#: Pitches tried by :func:`choose_layout`, as multiples of the effective pitch.
+_PITCH_SCALES = (1.0, 1.15, 1.3, 1.5, 1.75)
+
+
+@dataclass(frozen=True)
+class Layout:
+    """A lattice of the regular style: pitch (mm) and a shift along x as a share of the pitch
+    (0 or 0.5, both keep a lattice centred on the region mirror-symmetric)."""
+
+    pitch_mm: float
+    x_shift: float = 0.0
 
 
 def effective_pitch_mm(region: DesignRegion, shape: str) -> float:
@@ -51,13 +64,17 @@ def effective_pitch_mm(region: DesignRegion, shape: str) -> float:
     return max(p, 1.5 * dmin + web)
 
 
-def lattice_sites(region: DesignRegion, shape: str) -> list[tuple[float, float, bool]]:
+def lattice_sites(region: DesignRegion, shape: str, layout: Layout | None = None
+                  ) -> list[tuple[float, float, bool]]:
     """Candidate sites (x mm, y mm, points_up) of the lattice for ``shape``, rows from the
-    bottom. ``points_up`` matters for triangles only."""
+    bottom. ``points_up`` matters for triangles only. layout: pitch and shift (default: the
+    effective pitch, centred)."""
     s = region.settings
-    p = effective_pitch_mm(region, shape)
+    p = layout.pitch_mm if layout is not None else effective_pitch_mm(region, shape)
     x0, y0, x1, y1 = region.material.bounds
     cx, cy = (x0 + x1) / 2.0, (y0 + y1) / 2.0
+    if layout is not None:
+        cx += layout.x_shift * p
     nx = int(math.ceil((x1 - x0) / p)) + 2
     sites: list[tuple[float, float, bool]] = []
     if shape == "slot":
@@ -118,21 +135,24 @@ def _triangle(x: float, y: float, up: bool, inradius: float) -> np.ndarray:
 
 
 def pattern_holes(region: DesignRegion, nodes: np.ndarray, triangles: np.ndarray,
-                  densities: np.ndarray, level: float) -> tuple[Feature, ...]:
+                  densities: np.ndarray, level: float, layout: Layout | None = None
+                  ) -> tuple[Feature, ...]:
     """The graded array (see the module text) at the density threshold ``level`` (0: no holes;
     a site whose density is below it gets a hole).
 
     nodes (n, 2) float mm, triangles (m, 3) int, densities (m,) float: the optimised field.
     Returns Features of kind ``lightening`` with exact contours, ids ``lighten1``... in site
-    order (rows from the bottom, left to right).
+    order (rows from the bottom, left to right). layout: the lattice (default: the effective
+    pitch, centred; see :func:`choose_layout`).
     """
     s = region.settings
     shape = s.pattern_shape
     if level <= 0.0 or region.free.is_empty:
         return ()
-    p, web = effective_pitch_mm(region, shape), float(s.min_web_mm)
+    p = layout.pitch_mm if layout is not None else effective_pitch_mm(region, shape)
+    web = float(s.min_web_mm)
     dmin, r = float(s.min_hole_mm), float(s.corner_radius_mm)
-    sites = lattice_sites(region, shape)
+    sites = lattice_sites(region, shape, layout)
     xy = np.array([(x, y) for x, y, _ in sites])
     inside = shapely.contains_xy(region.free, xy[:, 0], xy[:, 1])
     sites = [st for st, ok in zip(sites, inside) if ok]
@@ -188,3 +208,20 @@ def pattern_holes(region: DesignRegion, nodes: np.ndarray, triangles: np.ndarray
                                note="lightening hole (finite-element estimate: confirm by test)"))
     return tuple(out)
 
+
+def choose_layout(region: DesignRegion, nodes: np.ndarray, triangles: np.ndarray,
+                  densities: np.ndarray, level: float) -> Layout:
+    """The lattice (pitch from ``_PITCH_SCALES`` x the effective pitch, shift 0 or half a
+    pitch) whose holes at the density threshold ``level`` cover the most area: the array is
+    fitted to where the optimiser put its voids before any finite-element check is made.
+    Ties go to the smaller pitch, then no shift (deterministic)."""
+    base = effective_pitch_mm(region, region.settings.pattern_shape)
+    best, best_area = Layout(base), -1.0
+    for scale in _PITCH_SCALES:
+        for shift in (0.0, 0.5):
+            lay = Layout(base * scale, shift)
+            holes = pattern_holes(region, nodes, triangles, densities, level, lay)
+            area = float(sum(-h.contours[0].signed_area() for h in holes))
+            if area > best_area * (1.0 + 1e-9):
+                best, best_area = lay, area
+    return best

@@ -56,6 +56,7 @@ from platewright.fea.lighten.design_region import (
     lightening_section,
     settings_from_mapping,
 )
+from platewright.fea.lighten.patterns import choose_layout
 from platewright.fea.lighten.plate_density import PlateDensityModel
 from platewright.fea.lighten.results import Candidate, DensityField, LighteningResult
 from platewright.fea.lighten.search import (
@@ -264,7 +265,11 @@ def lighten_plate(
                          "so the holes come out symmetric")
         to_threshold = level_thresholds(nodes, tris, dens, region)
         t0 = time.perf_counter()
-        sets = hole_sets(style, nodes, tris, dens, region, to_threshold, mirrors=mirrors)
+        layout = None
+        if style == "pattern":  # the lattice that best covers the optimiser's voids
+            layout = choose_layout(region, nodes, tris, dens, to_threshold(1.0 - vf))
+        sets = hole_sets(style, nodes, tris, dens, region, to_threshold, mirrors=mirrors,
+                         layout=layout)
         timings["holes"] = time.perf_counter() - t0
 
         def make(holes: Any) -> tuple[Feature, ...]:
@@ -283,7 +288,7 @@ def lighten_plate(
         while sets and len(candidates) < settings.max_candidates:
             if hi - lo <= 1:  # neighbours in the list: look for a set between them
                 if not refine_hole_sets(sets, lo, hi, style, nodes, tris, dens, region, to_threshold,
-                               mirrors):
+                                        mirrors, layout):
                     break
                 hi += 1
             if not candidates:

@@ -21,7 +21,7 @@ import shapely
 
 from platewright.fea.analysis import analyse_plate
 from platewright.fea.lighten.design_region import DesignRegion
-from platewright.fea.lighten.patterns import pattern_holes
+from platewright.fea.lighten.patterns import Layout, pattern_holes
 from platewright.fea.lighten.tracing import LIGHTENING_KIND, holes_from_density
 from platewright.fea.loadcases.parse import Component, LoadCase
 from platewright.fea.results import PlateAnalysis
@@ -114,8 +114,8 @@ class SearchJob:
 def hole_sets(style: str, nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray,
                region: DesignRegion, to_threshold: Callable[[float], float],
                levels: Sequence[float] | None = None,
-               mirrors: Sequence[tuple[float, float, float, float]] = ()
-               ) -> list[tuple[float, float, Any]]:
+               mirrors: Sequence[tuple[float, float, float, float]] = (),
+               layout: Layout | None = None) -> list[tuple[float, float, Any]]:
     """The distinct hole sets at the search ``levels`` (default 1/16, 2/16, ... 1), as (level,
     hole area mm^2, holes), ordered by hole area. Organic holes are shapely polygons (contours
     are fitted only for the sets that get verified); pattern holes are Features."""
@@ -130,7 +130,7 @@ def hole_sets(style: str, nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray,
             key = tuple((round(p.centroid.x, 3), round(p.centroid.y, 3), round(p.area, 2))
                         for p in holes)
         else:
-            holes = pattern_holes(region, nodes, tris, dens, thr)
+            holes = pattern_holes(region, nodes, tris, dens, thr, layout)
             area = float(sum(-h.contours[0].signed_area() for h in holes))
             key = tuple((round(h.center_mm[0], 3), round(h.center_mm[1], 3), round(area, 2))
                         for h in holes)
@@ -142,7 +142,8 @@ def hole_sets(style: str, nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray,
 def refine_hole_sets(sets: list[tuple[float, float, Any]], lo: int, hi: int, style: str,
             nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray, region: DesignRegion,
             to_threshold: Callable[[float], float],
-            mirrors: Sequence[tuple[float, float, float, float]] = ()) -> bool:
+            mirrors: Sequence[tuple[float, float, float, float]] = (),
+            layout: Layout | None = None) -> bool:
     """Insert at ``hi`` the hole set of a level halfway between sets ``lo`` and ``hi`` (the
     bracket ends; -1 and len(sets) stand for levels 0 and 1) when it differs from both;
     halves the level gap up to 4 times. Returns whether a set was inserted."""
@@ -154,7 +155,7 @@ def refine_hole_sets(sets: list[tuple[float, float, Any]], lo: int, hi: int, sty
         mid = 0.5 * (l0 + l1)
         if l1 - l0 < 1.0 / 256.0:
             return False
-        found = hole_sets(style, nodes, tris, dens, region, to_threshold, (mid,), mirrors)
+        found = hole_sets(style, nodes, tris, dens, region, to_threshold, (mid,), mirrors, layout)
         if found and a0 + 1e-6 < found[0][1] < a1 - 1e-6:
             sets.insert(hi, found[0])
             return True

@@ -390,5 +390,6 @@ def describe_schema() -> str:
             "`--set PATH=VALUE` changes one field before validation, e.g. "
             "`references.wheelbase_mm=180`, `plates[1].thickness_mm=4`, "
             "`plates.deck.features.left_bore.diameter_mm=8.1` (plates by `name`, features by "
-            "`id`). The value is read as YAML. New references must be added in the file.", ""]
+            "`id`). The value is read as YAML. An absent optional section is created (e.g. "
+            "`lightening.deflection_budget=0.1`). New references must be added in the file.", ""]
     return "\n".join(out).rstrip() + "\n"
