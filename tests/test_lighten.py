@@ -122,9 +122,9 @@ def _square_mesh():
     return mesh_polygon(shapely.box(-50, -50, 50, 50), 2.5)
 
 
-def test_radial_void_becomes_one_smooth_circle_eroded_by_half_a_web():
-    # Closed form: density r / 50 falls below 0.5 inside the circle r < 25 mm; eroding by half
-    # the web w leaves a circle of radius 25 - w / 2, area pi (25 - w/2)^2.
+def test_radial_void_becomes_one_smooth_circle_kept_whole_when_alone():
+    # Closed form: density r / 50 falls below 0.5 inside the circle r < 25 mm. A hole with no
+    # neighbour keeps its whole void (the web rule only acts between holes): area pi 25^2.
     mesh = _square_mesh()
     cent = mesh.nodes[mesh.triangles].mean(axis=1)
     dens = np.clip(np.hypot(cent[:, 0], cent[:, 1]) / 50.0, 0.0, 1.0)
@@ -136,7 +136,7 @@ def test_radial_void_becomes_one_smooth_circle_eroded_by_half_a_web():
     contour = hole.contours[0]
     assert hole.kind == "lightening" and hole.id == "lighten1"
     assert not contour.is_ccw()  # a hole runs clockwise (material on the left)
-    expected = math.pi * (25.0 - 3.0) ** 2
+    expected = math.pi * 25.0**2
     # mesh interpolation of r on 2.5 mm triangles: a fraction of a millimetre on the radius
     assert abs(-contour.signed_area() - expected) / expected < 0.03
     seg = np.hypot(*(np.roll(contour.vertices, -1, axis=0) - contour.vertices).T)

@@ -60,7 +60,9 @@ class LighteningSettings:
     None means "derived from the plate" as stated. Lengths mm.
     style: "organic" | "pattern". deflection_budget: the stiffness budget, a share (0.1 = every
     case may deflect at most 10 % more than the solid plate, on top of its own limits; None:
-    only the cases' own limits, the volume share chosen from their slack). edge_margin_mm: solid band along the outline (None:
+    only the cases' own limits, the volume share chosen from their slack). budget_curve: more
+    budgets at which the continuous optimum is also found (for the report's curve).
+    edge_margin_mm: solid band along the outline (None:
     ``max(1.5 t, min web)``). feature_ring_mm: ring kept round every feature (None: ``max(1.5 t,
     d)`` for round holes, the minimum web for the others). min_web_mm: web between new holes and
     to every contour (None: ``max(2 t, material min web)``, common practice "hole to hole >=
@@ -77,6 +79,7 @@ class LighteningSettings:
 
     style: str = "organic"
     deflection_budget: float | None = None
+    budget_curve: tuple[float, ...] = ()
     edge_margin_mm: float | None = None
     feature_ring_mm: float | None = None
     min_web_mm: float | None = None
@@ -107,9 +110,9 @@ class LighteningSettings:
             raise ValueError(f"chord_tol_mm must be positive, got {self.chord_tol_mm}")
         if self.max_iter < 1 or self.max_candidates < 1:
             raise ValueError("max_iter and max_candidates must be at least 1")
-        b = self.deflection_budget
-        if b is not None and not (math.isfinite(b) and b >= 0.0):
-            raise ValueError(f"deflection_budget must be a share >= 0, got {b}")
+        for b in (self.deflection_budget, *self.budget_curve):
+            if b is not None and not (math.isfinite(b) and b >= 0.0):
+                raise ValueError(f"deflection_budget and budget_curve must be shares >= 0, got {b}")
 
 
 def resolved_settings(plate: Plate, settings: LighteningSettings) -> LighteningSettings:
@@ -260,6 +263,8 @@ def settings_from_mapping(raw: Mapping[str, Any] | None, plate_name: str = "") -
         kw["keep_footprints"] = bool(raw["keep_footprints"])
     if raw.get("deflection_budget") is not None:
         kw["deflection_budget"] = float(raw["deflection_budget"])
+    if raw.get("budget_curve"):
+        kw["budget_curve"] = tuple(float(b) for b in raw["budget_curve"])
     rules = tuple(KeepOutRule(str(r["feature"]), r.get("role"),
                               None if r.get("ring_mm") is None else float(r["ring_mm"]))
                   for r in raw.get("keep_outs") or ()

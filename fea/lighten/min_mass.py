@@ -84,7 +84,7 @@ class MinMassResult:
 def minimise_mass(
     model: CaseModel,
     budgets: float | Sequence[float],
-    settings: TopOptSettings = TopOptSettings(),
+    settings: TopOptSettings | None = None,
     *,
     passive_solid: np.ndarray | None = None,
     start: np.ndarray | None = None,
@@ -105,7 +105,7 @@ def minimise_mass(
     progress: called after every analysis with (iteration, volume fraction, worst constraint
     ratio). See the module text for the method.
     """
-    s = settings
+    s = settings or TopOptSettings()
     if s.filter != "density":
         raise ValueError("minimise_mass uses the density filter")
     m = int(model.n_elements)
@@ -145,11 +145,9 @@ def minimise_mass(
     worst: list[float] = []
     converged = False
     it = 0
-    ratio = np.ones(k)
     for it in range(1, s.max_iter + 1):
         xp = physical(x)
         c, dc = responses(xp)
-        ratio = np.asarray(c) / c0
         vols.append(float(v_design @ xp) / v_total)
         worst.append(float(np.max(np.asarray(c) / allowed)))
         if progress is not None:

@@ -56,6 +56,7 @@ from platewright.fea.lighten.design_region import (
     lightening_section,
     settings_from_mapping,
 )
+from platewright.fea.lighten.min_mass import minimise_mass
 from platewright.fea.lighten.patterns import choose_layout
 from platewright.fea.lighten.plate_density import PlateDensityModel
 from platewright.fea.lighten.results import Candidate, DensityField, LighteningResult
@@ -69,7 +70,6 @@ from platewright.fea.lighten.search import (
     refine_hole_sets,
     with_holes,
 )
-from platewright.fea.lighten.min_mass import minimise_mass
 from platewright.fea.lighten.simp import TopOptSettings, optimise
 from platewright.fea.lighten.tracing import hole_features, level_thresholds, mirror_lines, symmetrised
 from platewright.fea.loadcases.parse import Component, LoadCase, parse_loads
@@ -118,14 +118,17 @@ _FILTER_PER_SIZE = 1.25
 
 
 def _densities(job: SearchJob, region: DesignRegion, slack: float,
-               settings: LighteningSettings, budgets: Mapping[str, float] | None
-               ) -> tuple[np.ndarray, np.ndarray, np.ndarray, int, float, float]:
+               settings: LighteningSettings, budgets: Mapping[str, float] | None,
+               curve: Sequence[Mapping[str, float]] = ()
+               ) -> tuple[np.ndarray, np.ndarray, np.ndarray, int, float, float, list[float]]:
     """(nodes (n, 2), triangles (m, 3), densities (m,), optimiser iterations, volume fraction
-    of the design region, mass share the grey densities remove from the plate).
+    of the design region, mass share the grey densities remove from the plate, that share at
+    each budget set of ``curve``).
 
     budgets (case -> b_k): least mass with every case's deflection within its budget
     (fea.lighten.min_mass); None: least compliance at a volume share chosen from the slack of
-    the limits (fea.lighten.simp)."""
+    the limits (fea.lighten.simp). curve: more budget sets, each optimised from the nearest
+    tighter result found so far (a feasible start)."""
     s = region.settings
     h = float(s.mesh_size_mm)
     # The budget path grades the mesh faster away from small holes (they lie in keep-outs):
@@ -141,7 +144,9 @@ def _densities(job: SearchJob, region: DesignRegion, slack: float,
         free &= ~model.attached_elements()
     passive = ~free
     if passive.all():
-        return mesh.nodes, mesh.triangles, np.ones(model.n_elements), 0, 1.0, 0.0
+        return mesh.nodes, mesh.triangles, np.ones(model.n_elements), 0, 1.0, 0.0, \
+            [0.0 for _ in curve]
+    curve_saved: list[float] = []
     rmin = max(2.0 * h, 2.0 * float(s.corner_radius_mm))
     if budgets is not None:  # a filter about one web wide: the smallest member it draws
         rmin = max(_FILTER_PER_SIZE * h, float(s.min_web_mm))
@@ -175,8 +180,20 @@ def _densities(job: SearchJob, region: DesignRegion, slack: float,
         mm = minimise_mass(model, b, top, passive_solid=passive, responses=responses,
                            progress=report_mm)
         dens, iterations, vf = np.asarray(mm.densities), mm.iterations, mm.volume_fraction
+        done = [(b, mm.design)]
+        for extra in curve:
+            bc = np.array([extra[n] for n in model.case_names])
+            if np.array_equal(bc, b):  # the main run itself
+                curve_saved.append(float(vol[free] @ (1.0 - dens[free]) / vol.sum()))
+                continue
+            tighter = [d for bb, d in done if np.all(bb <= bc)]
+            job.say(f"{job.plate.name}: continuous optimum at budget {max(bc):g}")
+            res = minimise_mass(model, bc, top, passive_solid=passive, responses=responses,
+                                start=tighter[-1] if tighter else None)
+            done.append((bc, res.design))
+            curve_saved.append(float(vol[free] @ (1.0 - res.densities[free]) / vol.sum()))
     saved = float(vol[free] @ (1.0 - dens[free]) / vol.sum())
-    return mesh.nodes, mesh.triangles, dens, iterations, vf, saved
+    return mesh.nodes, mesh.triangles, dens, iterations, vf, saved, curve_saved
 
 
 def lighten_plate(
@@ -245,9 +262,12 @@ def lighten_plate(
         t0 = time.perf_counter()
         if densities is None:
             job.say(f"{plate.name}: optimising the material layout")
-            nodes, tris, dens, iterations, vf, grey_saved = _densities(
-                job, region, _slack(before), settings, budgets)
-            density_field = DensityField(nodes, tris, dens, iterations, vf, grey_saved)
+            curve_budgets = sorted(set(settings.budget_curve)) if budgets is not None else []
+            curve_sets = [case_budgets(before, bc) for bc in curve_budgets]
+            nodes, tris, dens, iterations, vf, grey_saved, curve_saved = _densities(
+                job, region, _slack(before), settings, budgets, curve_sets)
+            density_field = DensityField(nodes, tris, dens, iterations, vf, grey_saved,
+                                         tuple(zip(curve_budgets, curve_saved)))
         elif isinstance(densities, DensityField):
             density_field = densities
             nodes, tris, dens = densities.nodes, densities.triangles, densities.densities

@@ -52,7 +52,8 @@ class DensityField:
     (m, 3) int, element densities (m,) float in [0, 1], the optimiser's iterations, the share
     of the design region it keeps (volume_fraction) and the share of the plate's mass its grey
     densities remove (saved_fraction: sum over the design region of (1 - density) x element
-    volume, over the plate's volume)."""
+    volume, over the plate's volume); curve: (budget, saved_fraction) of the continuous optimum
+    at more budgets, when asked."""
 
     nodes: np.ndarray
     triangles: np.ndarray
@@ -60,6 +61,7 @@ class DensityField:
     iterations: int = 0
     volume_fraction: float = 1.0
     saved_fraction: float = 0.0
+    curve: tuple[tuple[float, float], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -178,6 +180,8 @@ class LighteningResult:
                             "seconds": _num(c.seconds, 3)} for c in self.candidates],
             "deflection_budget": _num(self.deflection_budget, 6),
             "grey_optimum": {
+                "curve": [{"budget": _num(b, 6), "mass_saved_fraction": _num(f, 4)}
+                          for b, f in (self.density.curve if self.density is not None else ())],
                 "mass_saved_fraction": _num(self.grey_saved_fraction, 4),
                 "mass_saved_g": _num(None if self.grey_saved_fraction is None
                                      else self.grey_saved_fraction * self.mass_before_g),

@@ -226,6 +226,9 @@ LIGHTENING = Record("lightening (`platewright lighten`)", {
     "deflection_budget": Field(Number(ge=0.0, le=10.0), "stiffness budget as a share: every load "
                                "case may deflect at most (1 + budget) x the solid plate's, on top "
                                "of its own limits (e.g. 0.1; default: only the cases' limits)"),
+    "budget_curve": Field(NumberList(Number(ge=0.0, le=10.0)), "budgets at which the report also "
+                          "plots the continuous optimum's mass saving (e.g. [0.02, 0.05, 0.1, "
+                          "0.2]; each costs one more optimisation, no finite-element check)"),
     "plates": Field(ListOf(Text(word=True)), "plates to lighten (default: every plate with "
                     "load cases)", default=[]),
     "edge_margin_mm": Field(_OPT_MM, "solid band along the outline (default: max(1.5 x "
