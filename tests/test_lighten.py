@@ -319,3 +319,16 @@ def test_lighten_command_writes_files_report_and_readable_dxf(tray, tmp_path):
     ids = {i for e in inner for i in entity_feature_ids(e)}
     assert {f"lighten{k + 1}" for k in range(lt["holes"])} <= ids
     assert len(inner) == 4 + lt["holes"]  # four posts plus the new holes, each one closed path
+
+
+def test_long_straight_hole_edges_stay_within_the_chord_tolerance():
+    # A slot-like hole: long straight sides (two points each) between rounded ends. An arc fitted
+    # through sparse points may bow far from the straight edge between them; the fitted contour
+    # must stay within chord_tol of the traced shape everywhere (Hausdorff distance, shapely).
+    hole = shapely.box(-75.0, -7.0, 75.0, 7.0).buffer(-4.0).buffer(4.0, quad_segs=16)
+    hole = shapely.Polygon(np.vstack([hole.exterior.coords[:-1],
+                                      [[-70.0, -7.0 + 0.02]]]))  # a near-collinear extra point
+    hole = shapely.make_valid(hole)
+    (feat,) = hole_features([hole], 0.05)
+    fitted = to_polygon(feat.contours[0], 0.001)
+    assert fitted.hausdorff_distance(hole) <= 0.05 + 0.005

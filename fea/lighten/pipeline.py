@@ -84,6 +84,8 @@ __all__ = ["lighten_plate", "lighten_design", "with_holes", "RULES_FOR_NEW_HOLES
 
 #: Utilisation the level search aims at (just below the limits).
 _TARGET = 0.995
+#: Share of the plate's mass below which one more verified candidate is not worth its check.
+_SMALL_GAIN = 0.005
 
 
 def _slack(before: PlateAnalysis) -> float:
@@ -304,6 +306,7 @@ def lighten_plate(
         # solves suffice.
         lo, u_lo, a_lo = -1, u0, 0.0
         hi, u_hi, a_hi = len(sets), math.inf, math.inf
+        failed_mass = -math.inf
         t0 = time.perf_counter()
         while sets and len(candidates) < settings.max_candidates:
             if hi - lo <= 1:  # neighbours in the list: look for a set between them
@@ -311,7 +314,9 @@ def lighten_plate(
                                         mirrors, layout):
                     break
                 hi += 1
-            if not candidates:
+            if not candidates and budgets is not None:  # the grey optimum's void area
+                want = grey_saved * region.material.area
+            elif not candidates:
                 want = (1.0 - vf) * sets[-1][1]
             elif math.isfinite(u_hi):
                 want = a_lo + (_TARGET - u_lo) * (a_hi - a_lo) / max(u_hi - u_lo, 1e-12)
@@ -334,12 +339,20 @@ def lighten_plate(
             candidates.append(Candidate(level, len(kept), mass, ok,
                                         failing_cases(analysis) or ("" if ok else "budget"),
                                         time.perf_counter() - tc))
+            gain = (best[0] - mass) if (ok and best is not None) else math.inf
             if ok:
                 lo, u_lo, a_lo = i, u, area
                 if best is None or mass < best[0] - 1e-9:
                     best = (mass, kept, holed, analysis)
             else:
                 hi, u_hi, a_hi = i, max(u, 1.0 + 1e-9), area
+                failed_mass = max(failed_mass, mass)
+            # With a stiffness budget, stop once another check can gain little: the last step
+            # gained under _SMALL_GAIN of the plate's mass, or the lightest passing and the
+            # heaviest failing candidate lie that close.
+            if budgets is not None and best is not None and (
+                    gain < _SMALL_GAIN * m0 or best[0] - failed_mass < _SMALL_GAIN * m0):
+                break
         timings["verify"] = time.perf_counter() - t0
         if best is None:
             notes.append("no candidate kept every case within its limits"
