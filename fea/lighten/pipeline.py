@@ -85,7 +85,7 @@ __all__ = ["lighten_plate", "lighten_design", "with_holes", "RULES_FOR_NEW_HOLES
 #: Utilisation the level search aims at (just below the limits).
 _TARGET = 0.995
 #: Share of the plate's mass below which one more verified candidate is not worth its check.
-_SMALL_GAIN = 0.005
+_SMALL_GAIN = 0.01
 
 
 def _slack(before: PlateAnalysis) -> float:
@@ -325,6 +325,12 @@ def lighten_plate(
             i = lo + 1
             while i + 1 < hi and sets[i + 1][1] <= want:
                 i += 1
+            if budgets is not None and math.isfinite(u_hi) and (lo < 0 or (
+                    len(candidates) >= 2 and candidates[-1].passes and candidates[-2].passes)):
+                # the first guess failed, or two passing steps in a row crept towards a failing
+                # set far off: the utilisation is not linear in hole area there (a cliff), so
+                # halve the bracket instead (budget runs only; the older search is kept as is)
+                i = max(i, (lo + hi + 1) // 2)
             level, area, raw_holes = sets[i]
             tc = time.perf_counter()
             holes = make(raw_holes)
