@@ -52,7 +52,7 @@ def main() -> None:
     ap.add_argument("--starters", default="four_wheel_deck,two_wheel_base")
     ap.add_argument("--budgets", default=",".join(str(b) for b in BUDGETS))
     ap.add_argument("--styles", default="organic,pattern")
-    ap.add_argument("--shape", default="round", choices=["round", "triangle", "slot"])
+    ap.add_argument("--shape", default="grid", choices=["round", "triangle", "slot", "grid"])
     args = ap.parse_args()
     print(f"load average before: {os.getloadavg()[0]:.2f} (2 cores)")
     header = (f"{'plate':>10} {'budget':>6} {'style':>8} {'holes':>5} {'saved':>7} {'grey':>6} "

@@ -332,3 +332,26 @@ def test_long_straight_hole_edges_stay_within_the_chord_tolerance():
     (feat,) = hole_features([hole], 0.05)
     fitted = to_polygon(feat.contours[0], 0.001)
     assert fitted.hausdorff_distance(hole) <= 0.05 + 0.005
+
+
+def test_grid_pattern_ribs_are_one_web_and_mirror_symmetric():
+    # Void everywhere: the grid holes are the lattice triangles inset by half a web, so two
+    # neighbours are at least one web apart (common practice: hole to hole >= 2 t), every hole
+    # lies in the design region, and the lattice is mirror-symmetric about the plate's centre
+    # lines (shapely mirror images).
+    mesh = _square_mesh()
+    plate = make_plate(rect_contour(100.0, 100.0), thickness_mm=T)
+    region = design_region(plate, LighteningSettings(pattern_shape="grid"))
+    s = region.settings
+    holes = pattern_holes(region, mesh.nodes, mesh.triangles, np.zeros(mesh.n_triangles), 1.0)
+    assert len(holes) >= 4
+    polys = [to_polygon(h.contours[0], 0.01) for h in holes]
+    for i, a in enumerate(polys):
+        assert region.free.buffer(1e-3).contains(a)
+        assert not a.buffer(-s.min_hole_mm / 2.0 + 1e-3).is_empty
+        for b in polys[i + 1:]:
+            assert a.distance(b) >= s.min_web_mm - 0.02  # chord tolerance of the fitted arcs
+    union = shapely.union_all(polys)
+    for fx, fy in ((-1.0, 1.0), (1.0, -1.0)):
+        mirrored = scale(union, xfact=fx, yfact=fy, origin=(0.0, 0.0))
+        assert union.symmetric_difference(mirrored).area <= 0.01 * union.area

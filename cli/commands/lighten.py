@@ -188,8 +188,8 @@ class LightenCommand(AnalysisCommand):
         parser.add_argument("--style", choices=["organic", "pattern", "both"],
                             help="organic holes, a regular pattern, or both compared (default: the "
                                  "design's lightening.style, else organic)")
-        parser.add_argument("--pattern-shape", choices=["round", "triangle", "slot"],
-                            help="hole shape of the pattern style (default: the design's, else round)")
+        parser.add_argument("--pattern-shape", choices=["round", "triangle", "slot", "grid"],
+                            help="hole shape of the pattern style (default: the design's, else grid)")
         parser.add_argument("--budget", type=_share, metavar="SHARE",
                             help="stiffness budget: every load case may deflect at most (1 + SHARE) "
                                  "x the solid plate's, e.g. 0.1 (default: the design's "

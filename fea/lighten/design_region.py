@@ -47,7 +47,7 @@ __all__ = [
 #: Lightening styles: free-form holes traced from the density field, or a regular array.
 STYLES = ("organic", "pattern")
 #: Hole shapes of the regular style.
-PATTERN_SHAPES = ("round", "triangle", "slot")
+PATTERN_SHAPES = ("round", "triangle", "slot", "grid")
 #: Region polygons are built to this chord tolerance, mm (coarser than cut files: they only
 #: bound where holes may go, and every hole is checked on exact geometry afterwards).
 _REGION_TOL_MM = 0.02
@@ -69,7 +69,7 @@ class LighteningSettings:
     2 t"). corner_radius_mm: smallest corner radius of a new hole (None: ``max(t, 1 mm)``).
     min_hole_mm: smallest width of a new hole (None: ``max(3 t, 2 corner radius)``).
     chord_tol_mm: largest distance of a hole's lines and arcs from the traced shape.
-    solid_zones: boxes kept solid. pattern_shape: "round" | "triangle" | "slot".
+    solid_zones: boxes kept solid. pattern_shape: "round" | "triangle" | "slot" | "grid".
     pattern_pitch_mm: lattice pitch of the regular style (None: from the plate size).
     mesh_size_mm: element size of the optimisation mesh (None: bounding-box diagonal / 45).
     max_iter: optimiser iterations. max_candidates: verified candidates per style.
@@ -87,7 +87,7 @@ class LighteningSettings:
     min_hole_mm: float | None = None
     chord_tol_mm: float = 0.05
     solid_zones: tuple[Box, ...] = ()
-    pattern_shape: str = "round"
+    pattern_shape: str = "grid"
     pattern_pitch_mm: float | None = None
     mesh_size_mm: float | None = None
     max_iter: int = 30

@@ -86,6 +86,8 @@ __all__ = ["lighten_plate", "lighten_design", "with_holes", "RULES_FOR_NEW_HOLES
 _TARGET = 0.995
 #: Share of the plate's mass below which one more verified candidate is not worth its check.
 _SMALL_GAIN = 0.01
+#: Hole sets that could not be checked (e.g. the holed plate did not mesh) skipped at most.
+_UNUSABLE_SETS = 2
 
 
 def _slack(before: PlateAnalysis) -> float:
@@ -289,7 +291,7 @@ def lighten_plate(
         t0 = time.perf_counter()
         layout = None
         if style == "pattern":  # the lattice that best covers the optimiser's voids
-            layout = choose_layout(region, nodes, tris, dens, to_threshold(1.0 - vf))
+            layout = choose_layout(region, nodes, tris, dens, to_threshold(1.0 - vf), mirrors)
         sets = hole_sets(style, nodes, tris, dens, region, to_threshold, mirrors=mirrors,
                          layout=layout)
         timings["holes"] = time.perf_counter() - t0
@@ -307,6 +309,7 @@ def lighten_plate(
         lo, u_lo, a_lo = -1, u0, 0.0
         hi, u_hi, a_hi = len(sets), math.inf, math.inf
         failed_mass = -math.inf
+        unusable = 0
         t0 = time.perf_counter()
         while sets and len(candidates) < settings.max_candidates:
             if hi - lo <= 1:  # neighbours in the list: look for a set between them
@@ -337,6 +340,13 @@ def lighten_plate(
             job.say(f"{plate.name}: verifying {len(holes)} holes at level {level:.3f}")
             kept, holed, analysis = job.verify(holes)
             if analysis is None:
+                if budgets is not None and unusable < _UNUSABLE_SETS:
+                    # the set could not be checked (no hole kept, or the holed plate could not
+                    # be meshed): leave it out of the search rather than bound the search by it
+                    unusable += 1
+                    sets.pop(i)
+                    hi -= 1
+                    continue
                 hi, u_hi, a_hi = i, 10.0, area
                 continue
             mass = mass_properties(holed).mass_g
@@ -345,7 +355,6 @@ def lighten_plate(
             candidates.append(Candidate(level, len(kept), mass, ok,
                                         failing_cases(analysis) or ("" if ok else "budget"),
                                         time.perf_counter() - tc))
-            gain = (best[0] - mass) if (ok and best is not None) else math.inf
             if ok:
                 lo, u_lo, a_lo = i, u, area
                 if best is None or mass < best[0] - 1e-9:
@@ -353,11 +362,11 @@ def lighten_plate(
             else:
                 hi, u_hi, a_hi = i, max(u, 1.0 + 1e-9), area
                 failed_mass = max(failed_mass, mass)
-            # With a stiffness budget, stop once another check can gain little: the last step
-            # gained under _SMALL_GAIN of the plate's mass, or the lightest passing and the
-            # heaviest failing candidate lie that close.
-            if budgets is not None and best is not None and (
-                    gain < _SMALL_GAIN * m0 or best[0] - failed_mass < _SMALL_GAIN * m0):
+            # With a stiffness budget, stop once another check can gain little: the lightest
+            # passing and the heaviest failing candidate lie within _SMALL_GAIN of the plate's
+            # mass.
+            if budgets is not None and best is not None and \
+                    best[0] - failed_mass < _SMALL_GAIN * m0:
                 break
         timings["verify"] = time.perf_counter() - t0
         if best is None:

@@ -130,7 +130,7 @@ def hole_sets(style: str, nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray,
             key = tuple((round(p.centroid.x, 3), round(p.centroid.y, 3), round(p.area, 2))
                         for p in holes)
         else:
-            holes = pattern_holes(region, nodes, tris, dens, thr, layout)
+            holes = pattern_holes(region, nodes, tris, dens, thr, layout, mirrors)
             area = float(sum(-h.contours[0].signed_area() for h in holes))
             key = tuple((round(h.center_mm[0], 3), round(h.center_mm[1], 3), round(area, 2))
                         for h in holes)

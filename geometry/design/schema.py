@@ -247,8 +247,8 @@ LIGHTENING = Record("lightening (`platewright lighten`)", {
     "keep_outs": Field(ListOf(_KEEP_OUT), "per-feature role or ring width", default=[]),
     "keep_footprints": Field(Flag(), "keep component footprints and load areas solid",
                              default=True),
-    "pattern_shape": Field(Text(("round", "triangle", "slot")), "hole shape of the pattern "
-                           "style", default="round"),
+    "pattern_shape": Field(Text(("round", "triangle", "slot", "grid")), "hole shape of the pattern "
+                           "style", default="grid"),
     "pattern_pitch_mm": Field(_OPT_MM, "lattice pitch of the pattern style (default: bounding-"
                               "box diagonal / 12)"),
     "mesh_size_mm": Field(_OPT_MM, "element size of the optimisation mesh (default: bounding-"
