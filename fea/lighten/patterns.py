@@ -266,7 +266,9 @@ def _grid_cells(region: DesignRegion, pitch: float, x_shift: float) -> list[shap
                 pts = [(xc - pitch / 2, yb + h), (xc + pitch / 2, yb + h), (xc, yb)]
             cell = shapely.Polygon(pts)
             if cell.intersects(region.free):
-                inset = cell.buffer(-web / 2.0, join_style="mitre")
+                # half a web, plus the chord tolerance the fitted contour may take back
+                inset = cell.buffer(-web / 2.0 - float(region.settings.chord_tol_mm),
+                                    join_style="mitre")
                 if not inset.is_empty:
                     cells.append(inset)
     return cells
@@ -287,7 +289,11 @@ def _grid_in(region: DesignRegion, voids: Sequence[shapely.Polygon], pitch: floa
     r, dmin = float(s.corner_radius_mm), float(s.min_hole_mm)
     if not voids:
         return ()
-    void = shapely.union_all(voids)
+    # clear of the design region's edge by twice the chord tolerance: the fitted contours stay
+    # out of the keep-outs, and no piece runs within a hair of the outline band (meshes of such
+    # near-coincident rings were seen to fail)
+    void = shapely.intersection(shapely.union_all(voids), region.free.buffer(
+        -2.0 * float(s.chord_tol_mm), quad_segs=16))
     pieces = []
     for cell in _grid_cells(region, pitch, x_shift):
         if not cell.intersects(void):

@@ -122,8 +122,12 @@ def hole_sets(style: str, nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray,
     out: dict[tuple, tuple[float, float, Any]] = {}
     if levels is None:
         levels = list(np.arange(1, _LEVELS + 1) / _LEVELS)
+    traced: set[float] = set()
     for level in levels:
         thr = to_threshold(float(level))
+        if thr in traced:  # levels past the densest element share one threshold: one set
+            continue
+        traced.add(thr)
         if style == "organic":
             holes: Any = holes_from_density(nodes, tris, dens, region, thr, mirrors)
             area = float(sum(p.area for p in holes))
