@@ -311,7 +311,11 @@ def lighten_plate(
         failed_mass = -math.inf
         unusable = 0
         t0 = time.perf_counter()
+        attempts = 0
         while sets and len(candidates) < settings.max_candidates:
+            attempts += 1
+            if budgets is not None and attempts > settings.max_candidates + _UNUSABLE_SETS:
+                break  # every check counts against the budget run's time, usable or not
             if hi - lo <= 1:  # neighbours in the list: look for a set between them
                 if not refine_hole_sets(sets, lo, hi, style, nodes, tris, dens, region, to_threshold,
                                         mirrors, layout):

@@ -36,6 +36,8 @@ Progress = Callable[[str], None]
 RULES_FOR_NEW_HOLES = ("web", "edge_distance", "feature_size")
 #: Number of search levels (shares of the design region) turned into hole sets.
 _LEVELS = 16
+#: Element size of the one retry when a holed plate does not mesh, share of the usual size.
+_RETRY_SIZE = 0.7
 
 
 def with_holes(plate: Plate, holes: Sequence[Feature]) -> Plate:
@@ -106,9 +108,28 @@ class SearchJob:
             analysis = analyse_plate(candidate, self.cases, components=self.components,
                                      vehicle_mass_g=self.vehicle_mass_g, size_mm=self.size_mm,
                                      method=self.method)
-        except (DesignError, ValueError, RuntimeError):
+        except RuntimeError:
+            # The mesher's boundary recovery fails on some holed plates at the usual element
+            # size; one retry on a finer mesh (a finer mesh deflects a little more, so the check
+            # stays on the safe side)
+            try:
+                analysis = analyse_plate(candidate, self.cases, components=self.components,
+                                         vehicle_mass_g=self.vehicle_mass_g,
+                                         size_mm=_RETRY_SIZE * self._size_mm(), method=self.method)
+            except (DesignError, ValueError, RuntimeError):
+                return (), self.plate, None
+        except (DesignError, ValueError):
             return (), self.plate, None  # the holed plate could not be meshed or solved
         return kept, candidate, analysis
+
+    def _size_mm(self) -> float:
+        """The smallest element size the verifying analyses use, mm (as fea.analysis picks it:
+        the given size, else each case's, else the outline's bounding-box diagonal / 40)."""
+        if self.size_mm:
+            return float(self.size_mm)
+        x0, y0, x1, y1 = self.plate.outline.contours[0].bbox()
+        default = math.hypot(x1 - x0, y1 - y0) / 40.0
+        return min(float(c.mesh_size_mm or default) for c in self.cases)
 
 
 def hole_sets(style: str, nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray,
