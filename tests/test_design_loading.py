@@ -24,6 +24,7 @@ from platewright.geometry.design.loader import load_design, load_design_text
 from platewright.geometry.design.overrides import apply_overrides, split_path
 from platewright.geometry.design.schema import describe_schema
 from platewright.geometry.design.yamlsource import parse_yaml
+from platewright.geometry.errors import DesignError
 from platewright.geometry.plate.build import bundled_example_path, list_templates, plate_kerf_mm
 
 STARTERS = {p.stem: p for p in list_templates()}
@@ -256,3 +257,19 @@ def test_describe_schema_covers_every_key_used_in_the_starters():
     for path in STARTERS.values():
         used = set(keys(yaml.safe_load(path.read_text(encoding="utf-8"))))
         assert used <= documented, used - documented
+
+
+def test_override_creates_an_absent_optional_section():
+    # MINIMAL has no `lightening:` section; --set may create it (a sweep varies it too).
+    d = load_design_text(MINIMAL, overrides=["lightening.deflection_budget=0.1"])
+    tree = apply_overrides(parse_yaml(MINIMAL).data, ["lightening.deflection_budget=0.1"])
+    assert tree["lightening"] == {"deflection_budget": 0.1} and d.name
+    # a misspelt section or field is still refused with a hint
+    for bad, hint in (("lightning.deflection_budget=0.1", "lightening"),
+                      ("lightening.deflection_budgt=0.1", "deflection_budget")):
+        with pytest.raises(DesignError) as err:
+            load_design_text(MINIMAL, overrides=[bad])
+        assert hint in str(err.value)
+    with pytest.raises(DesignError) as err:  # the value is still checked by the schema
+        load_design_text(MINIMAL, overrides=["lightening.deflection_budget=-1"])
+    assert "deflection_budget" in str(err.value)

@@ -122,9 +122,9 @@ def _square_mesh():
     return mesh_polygon(shapely.box(-50, -50, 50, 50), 2.5)
 
 
-def test_radial_void_becomes_one_smooth_circle_eroded_by_half_a_web():
-    # Closed form: density r / 50 falls below 0.5 inside the circle r < 25 mm; eroding by half
-    # the web w leaves a circle of radius 25 - w / 2, area pi (25 - w/2)^2.
+def test_radial_void_becomes_one_smooth_circle_kept_whole_when_alone():
+    # Closed form: density r / 50 falls below 0.5 inside the circle r < 25 mm. A hole with no
+    # neighbour keeps its whole void (the web rule only acts between holes): area pi 25^2.
     mesh = _square_mesh()
     cent = mesh.nodes[mesh.triangles].mean(axis=1)
     dens = np.clip(np.hypot(cent[:, 0], cent[:, 1]) / 50.0, 0.0, 1.0)
@@ -136,7 +136,7 @@ def test_radial_void_becomes_one_smooth_circle_eroded_by_half_a_web():
     contour = hole.contours[0]
     assert hole.kind == "lightening" and hole.id == "lighten1"
     assert not contour.is_ccw()  # a hole runs clockwise (material on the left)
-    expected = math.pi * (25.0 - 3.0) ** 2
+    expected = math.pi * 25.0**2
     # mesh interpolation of r on 2.5 mm triangles: a fraction of a millimetre on the radius
     assert abs(-contour.signed_area() - expected) / expected < 0.03
     seg = np.hypot(*(np.roll(contour.vertices, -1, axis=0) - contour.vertices).T)
@@ -319,3 +319,39 @@ def test_lighten_command_writes_files_report_and_readable_dxf(tray, tmp_path):
     ids = {i for e in inner for i in entity_feature_ids(e)}
     assert {f"lighten{k + 1}" for k in range(lt["holes"])} <= ids
     assert len(inner) == 4 + lt["holes"]  # four posts plus the new holes, each one closed path
+
+
+def test_long_straight_hole_edges_stay_within_the_chord_tolerance():
+    # A slot-like hole: long straight sides (two points each) between rounded ends. An arc fitted
+    # through sparse points may bow far from the straight edge between them; the fitted contour
+    # must stay within chord_tol of the traced shape everywhere (Hausdorff distance, shapely).
+    hole = shapely.box(-75.0, -7.0, 75.0, 7.0).buffer(-4.0).buffer(4.0, quad_segs=16)
+    hole = shapely.Polygon(np.vstack([hole.exterior.coords[:-1],
+                                      [[-70.0, -7.0 + 0.02]]]))  # a near-collinear extra point
+    hole = shapely.make_valid(hole)
+    (feat,) = hole_features([hole], 0.05)
+    fitted = to_polygon(feat.contours[0], 0.001)
+    assert fitted.hausdorff_distance(hole) <= 0.05 + 0.005
+
+
+def test_grid_pattern_ribs_are_one_web_and_mirror_symmetric():
+    # Void everywhere: the grid holes are the lattice triangles inset by half a web, so two
+    # neighbours are at least one web apart (common practice: hole to hole >= 2 t), every hole
+    # lies in the design region, and the lattice is mirror-symmetric about the plate's centre
+    # lines (shapely mirror images).
+    mesh = _square_mesh()
+    plate = make_plate(rect_contour(100.0, 100.0), thickness_mm=T)
+    region = design_region(plate, LighteningSettings(pattern_shape="grid"))
+    s = region.settings
+    holes = pattern_holes(region, mesh.nodes, mesh.triangles, np.zeros(mesh.n_triangles), 1.0)
+    assert len(holes) >= 4
+    polys = [to_polygon(h.contours[0], 0.01) for h in holes]
+    for i, a in enumerate(polys):
+        assert region.free.buffer(1e-3).contains(a)
+        assert not a.buffer(-s.min_hole_mm / 2.0 + 1e-3).is_empty
+        for b in polys[i + 1:]:
+            assert a.distance(b) >= s.min_web_mm - 0.02  # chord tolerance of the fitted arcs
+    union = shapely.union_all(polys)
+    for fx, fy in ((-1.0, 1.0), (1.0, -1.0)):
+        mirrored = scale(union, xfact=fx, yfact=fy, origin=(0.0, 0.0))
+        assert union.symmetric_difference(mirrored).area <= 0.01 * union.area

@@ -32,6 +32,25 @@ __all__ = ["LightenCommand", "write_lightened", "lightening_html"]
 _KINDS = ("dxf", "svg", "stl", "glb")
 
 
+def _share(text: str) -> float:
+    """A budget share from the command line (>= 0, finite)."""
+    try:
+        v = float(text)
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a number (e.g. 0.1)") from exc
+    if not (v >= 0.0 and v <= 10.0):
+        raise argparse.ArgumentTypeError(f"{text} is not a share between 0 and 10 (e.g. 0.1)")
+    return v
+
+
+def _shares(text: str) -> tuple[float, ...]:
+    return tuple(_share(t) for t in text.split(",") if t.strip())
+
+
+def _pct(x: Any) -> str:
+    return "-" if x is None else f"{100 * x:.1f} %"
+
+
 def _fmt(x: Any, spec: str = ".3g") -> str:
     return "-" if x is None else format(x, spec)
 
@@ -80,14 +99,21 @@ def lightening_html(results: list[Any], reports: list[dict[str, Any]], svgs: lis
         parts.append(f"<h4>{html.escape(title)}: {rep['holes']} holes, mass "
                      f"{rep['mass_before_g']:.1f} g → {rep['mass_after_g']:.1f} g "
                      f"({100 * rep['mass_saved_fraction']:.1f} % saved)</h4>")
+        budget = rep.get("deflection_budget") is not None
         rows = "".join(
             f"<tr><td class='l'>{html.escape(c['name'])}</td><td>{_fmt(c['deflection_before_mm'])}</td>"
             f"<td>{_fmt(c['deflection_after_mm'])}</td><td>{_fmt(c['limit_mm'])}</td>"
-            f"<td>{_fmt(c['safety_factor_before'])}</td><td>{_fmt(c['safety_factor_after'])}</td>"
+            + (f"<td>{_pct(c.get('budget'))}</td><td>{_fmt(c.get('allowed_deflection_mm'))}</td>"
+               f"<td>{_pct(c.get('budget_used'))}</td>" if budget else "")
+            + f"<td>{_fmt(c['safety_factor_before'])}</td><td>{_fmt(c['safety_factor_after'])}</td>"
             f"<td>{'passes' if c['passes_after'] else 'FAILS'}</td></tr>" for c in rep["cases"])
         parts.append("<table><tr><th class='l'>case</th><th>deflection before mm</th>"
-                     "<th>deflection after mm</th><th>limit mm</th><th>safety factor before</th>"
+                     "<th>deflection after mm</th><th>limit mm</th>"
+                     + ("<th>budget</th><th>allowed mm</th><th>budget used</th>" if budget else "")
+                     + "<th>safety factor before</th>"
                      f"<th>safety factor after</th><th>verdict</th></tr>{rows}</table>")
+        parts.append(_grey_html(rep))
+        parts.append(_region_html(rep))
         parts.append(f"<p class='meta'>Added cut length {_fmt(rep['added_cut_length_mm'], '.0f')} mm, "
                      f"added pierces {rep['added_pierces']}; every suggestion was re-meshed and "
                      f"re-solved on the real holed geometry. {html.escape(ESTIMATE_NOTE)}.</p>")
@@ -107,6 +133,50 @@ def lightening_html(results: list[Any], reports: list[dict[str, Any]], svgs: lis
     return "".join(parts)
 
 
+def _grey_html(rep: dict[str, Any]) -> str:
+    """The price of manufacturability: the cut holes' saving next to the continuous optimum's,
+    and the mass-stiffness chart when a budget curve was asked."""
+    from platewright.cli.reports.budget_chart import budget_chart_svg
+
+    grey = rep.get("grey_optimum") or {}
+    if grey.get("mass_saved_fraction") is None:
+        return ""
+    text = ("<p>Continuous (grey) optimum in the same design region"
+            + (f" at the same budget ({_pct(rep['deflection_budget'])})"
+               if rep.get("deflection_budget") is not None else "")
+            + f": {_pct(grey['mass_saved_fraction'])} of the mass saved; the cut holes save "
+            f"{_pct(rep['mass_saved_fraction'])}"
+            + (f", {_pct(grey['cut_share'])} of it" if grey.get("cut_share") is not None else "")
+            + ". The grey optimum counts part-density material as part of the mass; it cannot "
+            "be cut, it shows what the manufacturing rules cost.</p>")
+    curve = [(c["budget"], c["mass_saved_fraction"]) for c in grey.get("curve", [])
+             if c.get("mass_saved_fraction") is not None]
+    if not curve:
+        return text
+    used = [c.get("deflection_after_mm", 0.0) / c["deflection_before_mm"] - 1.0
+            for c in rep["cases"] if c.get("deflection_before_mm")]
+    label = f"cut holes ({rep['style']}), at the growth they use"
+    svg = budget_chart_svg(curve, [(label, max(used, default=0.0), rep["mass_saved_fraction"])])
+    return text + f"<div class='drawing'>{svg}</div>"
+
+
+def _region_html(rep: dict[str, Any]) -> str:
+    """The design region and every keep-out with its rule and area (what limits the saving)."""
+    region = rep.get("design_region") or {}
+    kos = region.get("keep_outs") or []
+    if not kos:
+        return ""
+    rows = "".join(
+        f"<tr><td class='l'>{html.escape(k['name'])}</td><td class='l'>{html.escape(k['role'])}</td>"
+        f"<td>{_fmt(k['ring_mm'])}</td><td>{_fmt(k['area_mm2'], '.0f')}</td>"
+        f"<td class='l'>{html.escape(k['rule'])}</td></tr>" for k in kos)
+    return (f"<p>Design region (where holes may go): {_fmt(region.get('area_mm2'), '.0f')} mm², "
+            f"{_pct(region.get('fraction'))} of the plate. Keep-outs (areas inside the plate; "
+            "they overlap where zones meet; override with lightening.keep_outs):</p>"
+            "<table><tr><th class='l'>keep-out</th><th class='l'>role</th><th>ring mm</th>"
+            f"<th>area mm²</th><th class='l'>rule</th></tr>{rows}</table>")
+
+
 class LightenCommand(AnalysisCommand):
     name = "lighten"
     help = ("propose lightening holes for every plate with load cases, verified by a "
@@ -118,8 +188,15 @@ class LightenCommand(AnalysisCommand):
         parser.add_argument("--style", choices=["organic", "pattern", "both"],
                             help="organic holes, a regular pattern, or both compared (default: the "
                                  "design's lightening.style, else organic)")
-        parser.add_argument("--pattern-shape", choices=["round", "triangle", "slot"],
-                            help="hole shape of the pattern style (default: the design's, else round)")
+        parser.add_argument("--pattern-shape", choices=["round", "triangle", "slot", "grid"],
+                            help="hole shape of the pattern style (default: the design's, else grid)")
+        parser.add_argument("--budget", type=_share, metavar="SHARE",
+                            help="stiffness budget: every load case may deflect at most (1 + SHARE) "
+                                 "x the solid plate's, e.g. 0.1 (default: the design's "
+                                 "lightening.deflection_budget, else only the cases' limits)")
+        parser.add_argument("--budget-curve", type=_shares, metavar="S1,S2,...",
+                            help="also plot the continuous optimum's saving at these budgets "
+                                 "(one optimisation each), e.g. 0.02,0.05,0.1,0.2")
 
     def run(self, args: argparse.Namespace) -> int:
         from platewright.fea.lighten.design_region import lightening_section
@@ -131,8 +208,14 @@ class LightenCommand(AnalysisCommand):
         raw = lightening_section(design) or {}
         style = args.style or raw.get("style") or "organic"
         styles = ["organic", "pattern"] if style == "both" else [style]
-        overrides = {"pattern_shape": args.pattern_shape} if args.pattern_shape else None
-        results = lighten_design(design, plates, styles=styles, overrides=overrides,
+        overrides: dict[str, Any] = {}
+        if args.pattern_shape:
+            overrides["pattern_shape"] = args.pattern_shape
+        if args.budget is not None:
+            overrides["deflection_budget"] = args.budget
+        if args.budget_curve:
+            overrides["budget_curve"] = args.budget_curve
+        results = lighten_design(design, plates, styles=styles, overrides=overrides or None,
                                  size_mm=args.mesh_size_mm, method=args.solver,
                                  progress=self.progress(args),
                                  analyses=analyses)
@@ -186,17 +269,39 @@ class LightenCommand(AnalysisCommand):
 
 def _summary(report: dict[str, Any]) -> str:
     rows = []
+    extra: list[str] = []
     for p in report["plates"]:
         lt = p.get("lightening")
         if lt is None:
             continue
-        worst = [c for c in lt["cases"] if c["limit_mm"] is not None]
+        budget = lt.get("deflection_budget")
+        cells = []
+        for c in lt["cases"]:
+            allowed = c.get("allowed_deflection_mm") if budget is not None else c["limit_mm"]
+            if allowed is None:
+                continue
+            used = f" ({100 * c['budget_used']:.0f} % of budget)" \
+                if c.get("budget_used") is not None else ""
+            cells.append(f"{c['name']} {c['deflection_after_mm']:.3g}/{allowed:.3g}{used}")
+        grey = (lt.get("grey_optimum") or {}).get("mass_saved_fraction")
         rows.append([p["name"], lt["style"], str(lt["holes"]), f"{lt['mass_before_g']:.1f}",
                      f"{lt['mass_after_g']:.1f}", f"{100 * lt['mass_saved_fraction']:.1f}%",
-                     "; ".join(f"{c['name']} {c['deflection_after_mm']:.3g}/{c['limit_mm']:.3g}"
-                               for c in worst) or "-"])
+                     "-" if grey is None else f"{100 * grey:.1f}%", "; ".join(cells) or "-"])
+        region = lt.get("design_region") or {}
+        if region.get("keep_outs"):
+            by_role: dict[str, list[float]] = {}
+            for k in region["keep_outs"]:
+                by_role.setdefault(k["role"], []).append(k["area_mm2"] or 0.0)
+            extra.append(f"{p['name']}: design region {region['area_mm2']:.0f} mm2 "
+                         f"({100 * region['fraction']:.0f} % of the plate); keep-outs "
+                         + ", ".join(f"{role} {len(a)} x ({sum(a):.0f} mm2)"
+                                     for role, a in by_role.items()))
+        if budget is not None:
+            extra.append(f"{p['name']}: stiffness budget +{100 * budget:g} % deflection on every "
+                         "case, on top of each case's own limits")
     if not rows:
         return "no plate was lightened"
     return ("lightening (finite-element estimates: confirm by test)\n"
             + format_table(["plate", "style", "holes", "mass before g", "mass after g", "saved",
-                            "deflection after / limit mm"], rows))
+                            "grey optimum", "deflection after / allowed mm"], rows)
+            + ("\n" + "\n".join(extra) if extra else ""))

@@ -49,7 +49,7 @@ __all__ = [
 #: Most combinations one sweep may ask for (a guard against a mistyped step).
 MAX_COMBINATIONS = 5000
 _ROUND_DIGITS = 10
-_JOB_VERSION = 1
+_JOB_VERSION = 2  # 2: lightening follows the design's lightening settings
 
 
 @dataclass(frozen=True)
@@ -199,16 +199,34 @@ def lighten_available() -> bool:
     return callable(getattr(pipeline, "lighten_plate", None))
 
 
-def _lighten(plate: Any, cases: Sequence[Any], loads: Any, before: Any) -> float:
-    """Mass of ``plate`` after the lightening step, g (``lighten_plate`` of fea.lighten; the
-    plate's own mass when no suggestion kept every limit). ``before``: its analysis, or None."""
+def _lighten(design: Any, plate: Any, cases: Sequence[Any], loads: Any, before: Any) -> Any:
+    """The lightening result of ``plate`` (fea.lighten ``lighten_plate`` with the design's own
+    ``lightening:`` settings, ``--set`` overrides included, so a sweep may vary e.g.
+    ``lightening.deflection_budget``). ``before``: its analysis, or None."""
+    from platewright.fea.lighten.design_region import lightening_section, settings_from_mapping
     from platewright.fea.lighten.pipeline import lighten_plate
 
-    kwargs: dict[str, Any] = {"components": loads.components, "vehicle_mass_g": loads.vehicle_mass_g}
+    raw = lightening_section(design) or {}
+    settings = settings_from_mapping(raw, plate.name)
+    style = raw.get("style") if raw.get("style") in ("organic", "pattern") else "organic"
+    kwargs: dict[str, Any] = {"components": loads.components, "vehicle_mass_g": loads.vehicle_mass_g,
+                              "settings": settings, "style": style}
     if before is not None:
         kwargs["before"] = before
-    result = lighten_plate(plate, cases, **kwargs)
-    return float(result.mass_after_g)
+    return lighten_plate(plate, cases, **kwargs)
+
+
+def _lightening_row(result: Any) -> dict[str, Any]:
+    """The sweep row's summary of one plate's lightening: masses g, shares, deflections mm."""
+    def num(v: Any) -> float | None:
+        return None if v is None or not math.isfinite(float(v)) else float(v)
+
+    return {"mass_after_g": float(result.mass_after_g),
+            "mass_saved_fraction": float(result.mass_saved_fraction),
+            "grey_saved_fraction": num(result.grey_saved_fraction),
+            "deflection_budget": num(result.deflection_budget),
+            "verified": bool(result.verified),
+            "max_deflection_mm": {c.name: float(c.max_deflection_mm) for c in result.after.cases}}
 
 
 def run_job(job: SweepJob) -> dict[str, Any]:
@@ -217,7 +235,9 @@ def run_job(job: SweepJob) -> dict[str, Any]:
     Returns a JSON-ready row: ``key``, ``values`` (path -> value), ``status`` (pass | fail |
     refused | error), ``error`` (text, empty when built), ``total_mass_g`` (quantities applied),
     ``plates`` (name -> one plate's mass_g), ``cases`` ("plate/case" -> max_deflection_mm,
-    limit_mm, safety_factor, passes), ``lightened_mass_g`` (plate -> g) and ``notes``.
+    limit_mm, safety_factor, passes), ``lightened_mass_g`` (plate -> g), ``lightening`` (plate ->
+    mass after, saved share, grey optimum's share, budget, verified, deflection per case after)
+    when lightening ran, and ``notes``.
     """
     row: dict[str, Any] = {"key": job.key, "values": {p: v for p, v in job.varied},
                            "status": "refused", "error": "", "total_mass_g": None, "plates": {},
@@ -256,8 +276,9 @@ def run_job(job: SweepJob) -> dict[str, Any]:
                     if not cases:
                         continue
                     try:
-                        row["lightened_mass_g"][plate.name] = _lighten(
-                            plate, cases, loads, analyses.get(plate.name))
+                        res = _lighten(design, plate, cases, loads, analyses.get(plate.name))
+                        row["lightened_mass_g"][plate.name] = float(res.mass_after_g)
+                        row.setdefault("lightening", {})[plate.name] = _lightening_row(res)
                     except Exception as exc:  # the suggestion is optional: note it, keep the row
                         row["notes"].append(f"lightening {plate.name} failed: "
                                             f"{type(exc).__name__}: {exc}")

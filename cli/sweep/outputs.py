@@ -50,13 +50,32 @@ def _lightened(rows: Sequence[dict[str, Any]]) -> list[str]:
 def csv_columns(paths: Sequence[str], rows: Sequence[dict[str, Any]]) -> list[str]:
     """Column names of sweep.csv: the varied paths, status, total_mass_g, ``mass_g:PLATE`` per
     plate, per case ``max_deflection_mm:PLATE/CASE``, ``limit_mm:...``, ``safety_factor:...``,
-    ``passes:...``, ``lightened_mass_g:PLATE`` when lightening ran, notes and error."""
+    ``passes:...``, ``lightened_mass_g:PLATE``, ``lightened_saved_fraction:PLATE`` and
+    ``lightened_max_deflection_mm:PLATE/CASE`` when lightening ran, notes and error."""
     cols = [*paths, "status", "total_mass_g"]
     cols += [f"mass_g:{p}" for p in _plates(rows)]
     for c in _cases(rows):
         cols += [f"max_deflection_mm:{c}", f"limit_mm:{c}", f"safety_factor:{c}", f"passes:{c}"]
     cols += [f"lightened_mass_g:{p}" for p in _lightened(rows)]
+    cols += [f"lightened_saved_fraction:{p}" for p in _lightened(rows)]
+    cols += [f"lightened_max_deflection_mm:{c}" for c in _lightened_cases(rows)]
     return [*cols, "notes", "error"]
+
+
+def _lightened_cases(rows: Sequence[dict[str, Any]]) -> list[str]:
+    seen: dict[str, None] = {}
+    for r in rows:
+        for plate, lt in r.get("lightening", {}).items():
+            for case in lt.get("max_deflection_mm", {}):
+                seen.setdefault(f"{plate}/{case}", None)
+    return list(seen)
+
+
+def _lightened_value(r: dict[str, Any], key: str, name: str) -> Any:
+    if key == "max_deflection_mm":
+        plate, _, case = name.partition("/")
+        return r.get("lightening", {}).get(plate, {}).get(key, {}).get(case)
+    return r.get("lightening", {}).get(name, {}).get(key)
 
 
 def _cell(v: Any, spec: str) -> str:
@@ -86,6 +105,9 @@ def sweep_csv(paths: Sequence[str], rows: Sequence[dict[str, Any]]) -> str:
             line += [_cell(v.get("max_deflection_mm"), ".6g"), _cell(v.get("limit_mm"), ".6g"),
                      _cell(v.get("safety_factor"), ".6g"), _cell(v.get("passes"), "")]
         line += [_cell(r.get("lightened_mass_g", {}).get(p), ".6f") for p in light]
+        line += [_cell(_lightened_value(r, "mass_saved_fraction", p), ".6f") for p in light]
+        line += [_cell(_lightened_value(r, "max_deflection_mm", c), ".6g")
+                 for c in _lightened_cases(rows)]
         line += ["; ".join(r.get("notes", [])), r.get("error", "")]
         writer.writerow(line)
     return buf.getvalue()
@@ -101,9 +123,12 @@ def sweep_plot_png(paths: Sequence[str], rows: Sequence[dict[str, Any]], *, dpi:
     """PNG bytes: total mass (g) against the largest deflection of any case (mm) when the rows
     were checked, else against the first varied field; combinations that meet every limit are
     marked with filled green circles, the others with grey crosses. Refused rows are left out."""
-    fig = Figure(figsize=(7.0, 4.6), dpi=dpi)
+    light = [r for r in rows if r.get("lightening")]
+    fig = Figure(figsize=(12.0 if light else 7.0, 4.6), dpi=dpi)
     FigureCanvasAgg(fig)
-    ax = fig.add_subplot(1, 1, 1)
+    ax = fig.add_subplot(1, 2 if light else 1, 1)
+    if light:
+        _lightened_axes(fig.add_subplot(1, 2, 2), paths, light)
     built = [r for r in rows if r["status"] in ("pass", "fail") and r.get("total_mass_g") is not None]
     checked = any(r.get("cases") for r in built)
     for status, style in (("pass", dict(marker="o", color="#1b9e3a", label="meets every limit")),
@@ -127,6 +152,35 @@ def sweep_plot_png(paths: Sequence[str], rows: Sequence[dict[str, Any]], *, dpi:
     out = io.BytesIO()
     fig.savefig(out, format="png")
     return out.getvalue()
+
+
+def _lightened_axes(ax: Any, paths: Sequence[str], rows: Sequence[dict[str, Any]]) -> None:
+    """The mass-stiffness curve after lightening: each plate's mass (g) against its largest
+    deflection after lightening (mm), one point per combination labelled with the first varied
+    field's value; verified suggestions filled, others hollow."""
+    plates = _lightened(rows)
+    for k, plate in enumerate(plates):
+        pts = []
+        for r in rows:
+            lt = r.get("lightening", {}).get(plate)
+            if not lt or not lt.get("max_deflection_mm"):
+                continue
+            pts.append((max(lt["max_deflection_mm"].values()), lt["mass_after_g"],
+                        float(r["values"][paths[0]]), lt.get("verified", False)))
+        pts.sort()
+        if not pts:
+            continue
+        color = f"C{k % 10}"
+        ax.plot([p[0] for p in pts], [p[1] for p in pts], "-", color=color, alpha=0.5,
+                label=f"{plate} after lightening")
+        for x, y, v, ok in pts:
+            ax.plot([x], [y], "o", color=color, mfc=color if ok else "none")
+            ax.annotate(f"{v:g}", (x, y), textcoords="offset points", xytext=(4, 4), fontsize=7)
+    ax.set_xlabel("largest deflection after lightening (mm)")
+    ax.set_ylabel("plate mass after lightening (g)")
+    ax.set_title(f"Mass-stiffness curve (labels: {paths[0]})", fontsize=10)
+    ax.grid(True, alpha=0.3)
+    ax.legend(loc="best", fontsize=8)
 
 
 def render_sweep_html(manifest: dict[str, Any], paths: Sequence[str], rows: Sequence[dict[str, Any]],

@@ -1,20 +1,22 @@
 """The design region of a plate for lightening: where holes may go, and the settings that shape it.
 
-The design region is the plate's as-cut material minus keep-out zones:
+The design region is the plate's as-cut material minus keep-out zones, each recorded with what
+it protects, its rule and its area (so a report can show what limits the saving):
 
-- a ring around every functional feature (bores, slots, mount and fastener holes, cut-outs).
-  Round holes of diameter d get a ring of ``max(1.5 t, d)`` (the edge-distance rule of sheet
-  metal, common practice; REFERENCE.md "hole to edge >= max(1.5 t, d)"), every other feature a
-  ring of the minimum web; never less than the minimum web;
+- a ring round every functional feature whose width follows what the feature does
+  (:mod:`.keep_outs`: bearing seats and press fits by Lame's ring, fasteners, shaft bores and
+  slots by an edge distance of 1.5 diameters, motor faces by their footprint, cut-outs by the
+  minimum web), never less than the minimum web, overridable per feature;
 - a band of ``edge_margin_mm`` along the outline;
-- component footprints and the areas of area loads (the weight must have material to sit on);
+- component footprints and the areas of area loads (the weight must have material to sit on),
+  and a disc round point loads and point supports;
 - user zones marked solid in the design file (``lightening.solid_zones``);
 - the engraved labels' ink boxes with their margin (``labels.LABEL_MARGIN_MM``), so that a new
   hole never runs under a label.
 
-A new hole placed inside the region therefore keeps the edge distance to every feature and the
+A new hole placed inside the region therefore keeps its feature's ring to every feature and the
 margin to the outline; the web between new holes is enforced where holes are made
-(:mod:`.holes_from_density`, :mod:`.hole_patterns`). All lengths in mm.
+(:mod:`.tracing`, :mod:`.patterns`). All lengths in mm, areas mm^2.
 """
 
 from __future__ import annotations
@@ -27,6 +29,7 @@ from typing import Any
 
 import shapely
 
+from platewright.fea.lighten.keep_outs import ROLE_RULES, KeepOut, KeepOutRule, feature_keep_outs
 from platewright.fea.loadcases.parse import Box, Component, LoadCase
 from platewright.geometry.model import Plate
 from platewright.geometry.plate.cutpaths import part_contours
@@ -48,7 +51,7 @@ __all__ = [
 #: Lightening styles: free-form holes traced from the density field, or a regular array.
 STYLES = ("organic", "pattern")
 #: Hole shapes of the regular style.
-PATTERN_SHAPES = ("round", "triangle", "slot")
+PATTERN_SHAPES = ("round", "triangle", "slot", "grid")
 #: Region polygons are built to this chord tolerance, mm (coarser than cut files: they only
 #: bound where holes may go, and every hole is checked on exact geometry afterwards).
 _REGION_TOL_MM = 0.02
@@ -59,21 +62,28 @@ class LighteningSettings:
     """Settings of a lightening run (the design file's ``lightening:`` section).
 
     None means "derived from the plate" as stated. Lengths mm.
-    style: "organic" | "pattern". edge_margin_mm: solid band along the outline (None:
+    style: "organic" | "pattern". deflection_budget: the stiffness budget, a share (0.1 = every
+    case may deflect at most 10 % more than the solid plate, on top of its own limits; None:
+    only the cases' own limits, the volume share chosen from their slack). budget_curve: more
+    budgets at which the continuous optimum is also found (for the report's curve).
+    edge_margin_mm: solid band along the outline (None:
     ``max(1.5 t, min web)``). feature_ring_mm: ring kept round every feature (None: ``max(1.5 t,
     d)`` for round holes, the minimum web for the others). min_web_mm: web between new holes and
     to every contour (None: ``max(2 t, material min web)``, common practice "hole to hole >=
     2 t"). corner_radius_mm: smallest corner radius of a new hole (None: ``max(t, 1 mm)``).
     min_hole_mm: smallest width of a new hole (None: ``max(3 t, 2 corner radius)``).
     chord_tol_mm: largest distance of a hole's lines and arcs from the traced shape.
-    solid_zones: boxes kept solid. pattern_shape: "round" | "triangle" | "slot".
+    solid_zones: boxes kept solid. pattern_shape: "round" | "triangle" | "slot" | "grid".
     pattern_pitch_mm: lattice pitch of the regular style (None: from the plate size).
     mesh_size_mm: element size of the optimisation mesh (None: bounding-box diagonal / 45).
     max_iter: optimiser iterations. max_candidates: verified candidates per style.
     keep_footprints: component footprints, area loads and point loads/supports stay solid.
+    keep_outs: per-feature roles and rings (:class:`.keep_outs.KeepOutRule`).
     """
 
     style: str = "organic"
+    deflection_budget: float | None = None
+    budget_curve: tuple[float, ...] = ()
     edge_margin_mm: float | None = None
     feature_ring_mm: float | None = None
     min_web_mm: float | None = None
@@ -81,12 +91,13 @@ class LighteningSettings:
     min_hole_mm: float | None = None
     chord_tol_mm: float = 0.05
     solid_zones: tuple[Box, ...] = ()
-    pattern_shape: str = "round"
+    pattern_shape: str = "grid"
     pattern_pitch_mm: float | None = None
     mesh_size_mm: float | None = None
     max_iter: int = 30
     max_candidates: int = 7
     keep_footprints: bool = True
+    keep_outs: tuple[KeepOutRule, ...] = ()
 
     def __post_init__(self) -> None:
         if self.style not in STYLES:
@@ -103,6 +114,9 @@ class LighteningSettings:
             raise ValueError(f"chord_tol_mm must be positive, got {self.chord_tol_mm}")
         if self.max_iter < 1 or self.max_candidates < 1:
             raise ValueError("max_iter and max_candidates must be at least 1")
+        for b in (self.deflection_budget, *self.budget_curve):
+            if b is not None and not (math.isfinite(b) and b >= 0.0):
+                raise ValueError(f"deflection_budget and budget_curve must be shares >= 0, got {b}")
 
 
 def resolved_settings(plate: Plate, settings: LighteningSettings) -> LighteningSettings:
@@ -131,7 +145,8 @@ class DesignRegion:
 
     material: the as-cut material of the plate. free: the design region (material minus every
     keep-out), possibly several pieces. keep_out: the union of the keep-out zones (may reach past
-    the material). settings: the resolved settings used.
+    the material). settings: the resolved settings used. keep_outs: every zone with what it
+    protects, its rule and its area inside the material (mm^2), in the order built.
     """
 
     material: shapely.Polygon
@@ -139,6 +154,12 @@ class DesignRegion:
     keep_out: shapely.Geometry
     settings: LighteningSettings
     thickness_mm: float
+    keep_outs: tuple[KeepOut, ...] = ()
+
+    @property
+    def free_area_mm2(self) -> float:
+        """Area of the design region, mm^2."""
+        return float(self.free.area)
 
     @property
     def free_fraction(self) -> float:
@@ -169,48 +190,55 @@ def design_region(
     t = plate.thickness_mm
     material = plate_region(plate, _REGION_TOL_MM)
     bounds = material.bounds
-    zones: list[shapely.Geometry] = []
-    for fid, contour in part_contours(plate):
-        if fid == plate.outline.id and contour.is_ccw():
-            continue
-        poly = to_polygon(contour, _REGION_TOL_MM)
-        if contour.is_circle:
-            _, r = contour.circle_center_radius()
-            ring = max(1.5 * t, 2.0 * r, s.min_web_mm)
-        else:
-            ring = s.min_web_mm
-        if s.feature_ring_mm is not None:
-            ring = max(s.feature_ring_mm, s.min_web_mm)
-        zones.append(poly.buffer(ring, quad_segs=16))
+    inner = [(fid, c) for fid, c in part_contours(plate)
+             if not (fid == plate.outline.id and c.is_ccw())]
+    kept: list[KeepOut] = feature_keep_outs(
+        plate, inner, min_web_mm=float(s.min_web_mm), tol_mm=_REGION_TOL_MM,
+        feature_ring_mm=s.feature_ring_mm, rules=s.keep_outs)
     outline = to_polygon(plate.outline.contours[0], _REGION_TOL_MM)
-    zones.append(outline.exterior.buffer(s.edge_margin_mm, quad_segs=16))
-    for box in s.solid_zones:
-        zones.append(_box_polygon(box, bounds))
+    kept.append(KeepOut("outline", "outline", float(s.edge_margin_mm), ROLE_RULES["outline"],
+                        outline.exterior.buffer(s.edge_margin_mm, quad_segs=16)))
+    for i, box in enumerate(s.solid_zones):
+        kept.append(KeepOut(f"solid_zone{i + 1}", "solid_zone", None, ROLE_RULES["solid_zone"],
+                            _box_polygon(box, bounds)))
     for e in plate.engravings:
         label = text_polygon(e.text, e.position_mm, e.height_mm, e.rotation_deg)
         if not label.is_empty:
-            zones.append(label.buffer(LABEL_MARGIN_MM, join_style="mitre"))
+            kept.append(KeepOut(e.id, "label", float(LABEL_MARGIN_MM),
+                                ROLE_RULES["label"],
+                                label.buffer(LABEL_MARGIN_MM, join_style="mitre")))
     if s.keep_footprints:
         for c in components:
             if c.plate == plate.name and c.at_mm is not None and c.footprint_mm is not None:
                 hx, hy = c.footprint_mm[0] / 2.0, c.footprint_mm[1] / 2.0
-                zones.append(shapely.box(c.at_mm[0] - hx, c.at_mm[1] - hy,
-                                         c.at_mm[0] + hx, c.at_mm[1] + hy))
+                kept.append(KeepOut(c.id, "footprint", None, ROLE_RULES["footprint"],
+                                    shapely.box(c.at_mm[0] - hx, c.at_mm[1] - hy,
+                                                c.at_mm[0] + hx, c.at_mm[1] + hy)))
+        disc = max(2.0 * float(s.min_web_mm), 3 * t)
         for case in cases:
             if case.plate != plate.name:
                 continue
             for load in case.loads:
                 if load.type == "pressure" and load.region is not None:
-                    zones.append(_box_polygon(load.region, bounds))
+                    kept.append(KeepOut(f"{case.name}: pressure", "load_or_support", None,
+                                        ROLE_RULES["load_or_support"],
+                                        _box_polygon(load.region, bounds)))
                 if load.type == "force" and load.at_mm is not None:
-                    zones.append(shapely.Point(load.at_mm).buffer(max(2.0 * s.min_web_mm, 3 * t)))
+                    kept.append(KeepOut(f"{case.name}: force", "load_or_support", disc,
+                                        ROLE_RULES["load_or_support"],
+                                        shapely.Point(load.at_mm).buffer(disc)))
             for sup in case.supports:
                 for p in sup.points_mm:
-                    zones.append(shapely.Point(p).buffer(max(2.0 * s.min_web_mm, 3 * t)))
+                    kept.append(KeepOut(f"{case.name}: support", "load_or_support", disc,
+                                        ROLE_RULES["load_or_support"],
+                                        shapely.Point(p).buffer(disc)))
+    kept = [replace(k, area_mm2=float(shapely.intersection(k.zone, material).area))
+            for k in kept]
+    zones = [k.zone for k in kept]
     keep_out = shapely.union_all(zones)
     free = shapely.difference(material, keep_out)
     free = shapely.make_valid(free) if not free.is_valid else free
-    return DesignRegion(material, free, keep_out, s, t)
+    return DesignRegion(material, free, keep_out, s, t, tuple(kept))
 
 
 def _box_from(raw: Mapping[str, Any]) -> Box:
@@ -243,7 +271,15 @@ def settings_from_mapping(raw: Mapping[str, Any] | None, plate_name: str = "") -
         kw["pattern_shape"] = raw["pattern_shape"]
     if raw.get("keep_footprints") is not None:
         kw["keep_footprints"] = bool(raw["keep_footprints"])
-    return LighteningSettings(solid_zones=zones, **kw)
+    if raw.get("deflection_budget") is not None:
+        kw["deflection_budget"] = float(raw["deflection_budget"])
+    if raw.get("budget_curve"):
+        kw["budget_curve"] = tuple(float(b) for b in raw["budget_curve"])
+    rules = tuple(KeepOutRule(str(r["feature"]), r.get("role"),
+                              None if r.get("ring_mm") is None else float(r["ring_mm"]))
+                  for r in raw.get("keep_outs") or ()
+                  if not r.get("plate") or r.get("plate") == plate_name)
+    return LighteningSettings(solid_zones=zones, keep_outs=rules, **kw)
 
 
 def lightening_section(design: Any) -> dict[str, Any] | None:

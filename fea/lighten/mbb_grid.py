@@ -92,6 +92,17 @@ class MBBModel:
         dc = -penal * (1.0 - emin_ratio) * x ** (penal - 1.0) * ce
         return c, dc
 
+    def case_responses(self, x_phys: np.ndarray, *, penal: float = 3.0,
+                       emin_ratio: float = 1e-9) -> tuple[np.ndarray, np.ndarray]:
+        """The compliance as the one load case: (1,) float and its sensitivity (1, m) float."""
+        c, dc = self.compliance(x_phys, penal=penal, emin_ratio=emin_ratio)
+        return np.array([c]), dc[None, :]
+
+    @property
+    def solid_compliance(self) -> np.ndarray:
+        """Compliance of the solid beam (x = 1), (1,) float, element units."""
+        return np.array([self.compliance(np.ones(self.n_elements))[0]])
+
 
 def mbb_model(nelx: int, nely: int, nu: float = 0.3) -> MBBModel:
     """The half MBB beam of the 88-line paper, nelx x nely unit elements (see MBBModel)."""

@@ -29,7 +29,8 @@ Lengths mm, masses g, times s. Every figure is a finite-element ESTIMATE to be c
 test before the part carries a load.
 
 The hole sets, the rules for new holes and the verification of a candidate are in
-:mod:`.lighten_search`; this module holds the pipeline and the search loop.
+:mod:`.search`, the optimisation in :mod:`.layout`; this module holds the pipeline and the
+search loop.
 """
 
 from __future__ import annotations
@@ -41,18 +42,22 @@ from dataclasses import replace
 from typing import Any
 
 import numpy as np
-import shapely
 
 from platewright.fea.analysis import analyse_plate, total_vehicle_mass_g
+from platewright.fea.lighten.budget import (
+    budget_utilisation,
+    case_budgets,
+    meets_budget,
+)
 from platewright.fea.lighten.design_region import (
-    DesignRegion,
     LighteningSettings,
     design_region,
     lightening_section,
     settings_from_mapping,
 )
-from platewright.fea.lighten.plate_density import PlateDensityModel
-from platewright.fea.lighten.results import Candidate, LighteningResult
+from platewright.fea.lighten.layout import limit_slack, optimised_layout
+from platewright.fea.lighten.patterns import choose_layout
+from platewright.fea.lighten.results import Candidate, DensityField, LighteningResult
 from platewright.fea.lighten.search import (
     RULES_FOR_NEW_HOLES,
     Progress,
@@ -63,11 +68,8 @@ from platewright.fea.lighten.search import (
     refine_hole_sets,
     with_holes,
 )
-from platewright.fea.lighten.simp import TopOptSettings, optimise
 from platewright.fea.lighten.tracing import hole_features, level_thresholds, mirror_lines, symmetrised
 from platewright.fea.loadcases.parse import Component, LoadCase, parse_loads
-from platewright.fea.mesh.mesher import mesh_rings
-from platewright.fea.mesh.plate_input import plate_rings
 from platewright.fea.results import PlateAnalysis
 from platewright.geometry.model import Feature, Plate
 from platewright.geometry.plate.cutpaths import cut_paths
@@ -77,55 +79,10 @@ __all__ = ["lighten_plate", "lighten_design", "with_holes", "RULES_FOR_NEW_HOLES
 
 #: Utilisation the level search aims at (just below the limits).
 _TARGET = 0.995
-
-
-def _slack(before: PlateAnalysis) -> float:
-    """Smallest ratio allowed / present over every limit (>= 1 when the plate passes)."""
-    ratios = []
-    for case in before.cases:
-        for chk in case.checks:
-            if chk.value is None or chk.limit is None or chk.value <= 0:
-                continue
-            if chk.name == "min_safety_factor":
-                ratios.append(chk.value / chk.limit)
-            else:
-                ratios.append(chk.limit / chk.value)
-    return min(ratios) if ratios else 2.0
-
-
-def _volume_fraction(slack: float) -> float:
-    """SIMP volume bound on the design region from the slack (our choice, stated here, tuned
-    on the bundled deck by benchmarks/bench_lighten.py): the bending stiffness of a plate
-    grows like its thickness cubed, so a slack s in deflection allows roughly a share
-    ``s^(-1/3)`` of the material; 0.1 less, clipped to [0.35, 0.85], so the density ranking
-    the level search works on stays informative."""
-    return float(np.clip(slack ** (-1.0 / 3.0) - 0.1, 0.35, 0.85))
-
-
-def _densities(job: SearchJob, region: DesignRegion, slack: float,
-               settings: LighteningSettings) -> tuple[np.ndarray, np.ndarray, np.ndarray, int, float]:
-    """(nodes (n, 2), triangles (m, 3), densities (m,), optimiser iterations, volume fraction)."""
-    s = region.settings
-    h = float(s.mesh_size_mm)
-    mesh = mesh_rings(plate_rings(job.plate, h), h)
-    model = PlateDensityModel(job.plate, mesh, job.cases, components=job.components,
-                              vehicle_mass_g=job.vehicle_mass_g)
-    cx, cy = model.centroids[:, 0], model.centroids[:, 1]
-    free = shapely.contains_xy(region.free, cx, cy) if not region.free.is_empty else \
-        np.zeros(model.n_elements, bool)
-    passive = ~free
-    if passive.all():
-        return mesh.nodes, mesh.triangles, np.ones(model.n_elements), 0, 1.0
-    vf = _volume_fraction(slack)
-    top = TopOptSettings(rmin_mm=max(2.0 * h, 2.0 * float(s.corner_radius_mm)),
-                         max_iter=settings.max_iter, tol_change=0.02)
-
-    def report(it: int, obj: float, vol: float) -> None:
-        job.say(f"{job.plate.name}: optimiser iteration {it}, objective {obj:.4g}, "
-                f"volume {vol:.3f}")
-
-    res = optimise(model, vf, top, passive_solid=passive, progress=report)
-    return mesh.nodes, mesh.triangles, np.asarray(res.densities), res.iterations, vf
+#: Share of the plate's mass below which one more verified candidate is not worth its check.
+_SMALL_GAIN = 0.01
+#: Hole sets that could not be checked (e.g. the holed plate did not mesh) skipped at most.
+_UNUSABLE_SETS = 2
 
 
 def lighten_plate(
@@ -139,7 +96,7 @@ def lighten_plate(
     size_mm: float | None = None,
     method: str = "auto",
     before: PlateAnalysis | None = None,
-    densities: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None,
+    densities: DensityField | tuple[np.ndarray, np.ndarray, np.ndarray] | None = None,
     progress: Progress | None = None,
 ) -> LighteningResult:
     """Lightening holes for ``plate`` that keep every case of ``cases`` within its limits.
@@ -172,26 +129,44 @@ def lighten_plate(
     m0 = mass_properties(plate).mass_g
     cut0 = cut_paths(plate)
     notes: list[str] = []
-    iterations, vf = 0, 1.0
-    density_field = None
+    iterations, vf, grey_saved = 0, 1.0, 0.0
+    density_field: DensityField | None = None
     candidates: list[Candidate] = []
     best: tuple[float, tuple[Feature, ...], Plate, PlateAnalysis] | None = None
+    budget = settings.deflection_budget
+    budgets = case_budgets(before, budget) if budget is not None else None
+
+    def utilisation(analysis: PlateAnalysis) -> float:
+        u = limit_utilisation(analysis)
+        return u if budgets is None else max(u, budget_utilisation(before, analysis, budgets))
+
+    def passes(analysis: PlateAnalysis) -> bool:
+        return analysis.passes and (budgets is None or meets_budget(before, analysis, budgets))
+
     if not before.passes:
         notes.append("the plate as designed already fails a limit: no lightening suggested")
     elif region.free.area < math.pi * (region.settings.min_hole_mm / 2.0) ** 2:
         notes.append("the design region (plate minus keep-outs) is too small for any hole")
     else:
         t0 = time.perf_counter()
-        slack = _slack(before)
         if densities is None:
             job.say(f"{plate.name}: optimising the material layout")
-            nodes, tris, dens, iterations, vf = _densities(job, region, slack, settings)
+            curve_budgets = sorted(set(settings.budget_curve)) if budgets is not None else []
+            curve_sets = [case_budgets(before, bc) for bc in curve_budgets]
+            nodes, tris, dens, iterations, vf, grey_saved, curve_saved = optimised_layout(
+                job, region, limit_slack(before), settings, budgets, curve_sets)
+            density_field = DensityField(nodes, tris, dens, iterations, vf, grey_saved,
+                                         tuple(zip(curve_budgets, curve_saved)))
+        elif isinstance(densities, DensityField):
+            density_field = densities
+            nodes, tris, dens = densities.nodes, densities.triangles, densities.densities
+            vf, grey_saved = densities.volume_fraction, densities.saved_fraction
         else:
             nodes, tris, dens = densities
-        density_field = (nodes, tris, dens)
+            density_field = DensityField(nodes, tris, dens, 0, vf, grey_saved)
         timings["optimise"] = time.perf_counter() - t0
 
-        u0 = limit_utilisation(before)
+        u0 = utilisation(before)
         mirrors = mirror_lines(region, nodes, tris, dens)
         if mirrors:
             dens = symmetrised(dens, nodes, tris, mirrors)
@@ -199,7 +174,11 @@ def lighten_plate(
                          "so the holes come out symmetric")
         to_threshold = level_thresholds(nodes, tris, dens, region)
         t0 = time.perf_counter()
-        sets = hole_sets(style, nodes, tris, dens, region, to_threshold, mirrors=mirrors)
+        layout = None
+        if style == "pattern":  # the lattice that best covers the optimiser's voids
+            layout = choose_layout(region, nodes, tris, dens, to_threshold(1.0 - vf), mirrors)
+        sets = hole_sets(style, nodes, tris, dens, region, to_threshold, mirrors=mirrors,
+                         layout=layout)
         timings["holes"] = time.perf_counter() - t0
 
         def make(holes: Any) -> tuple[Feature, ...]:
@@ -208,19 +187,28 @@ def lighten_plate(
             return holes
 
         # Search over the distinct hole sets, ordered by hole area: u(set) is the worst
-        # utilisation of any limit (1 = at the limit). The bracket starts at "no holes" (the
-        # plate as designed, u0) and "beyond the largest set"; each step interpolates u
-        # linearly in hole area to aim just below 1, so about log2(sets) solves suffice.
+        # utilisation of any limit and of the stiffness budget (1 = at the limit). The bracket
+        # starts at "no holes" (the plate as designed, u0) and "beyond the largest set"; each
+        # step interpolates u linearly in hole area to aim just below 1, so about log2(sets)
+        # solves suffice.
         lo, u_lo, a_lo = -1, u0, 0.0
         hi, u_hi, a_hi = len(sets), math.inf, math.inf
+        failed_mass = -math.inf
+        unusable = 0
         t0 = time.perf_counter()
-        while len(candidates) < settings.max_candidates:
+        attempts = 0
+        while sets and len(candidates) < settings.max_candidates:
+            attempts += 1
+            if budgets is not None and attempts > settings.max_candidates + _UNUSABLE_SETS:
+                break  # every check counts against the budget run's time, usable or not
             if hi - lo <= 1:  # neighbours in the list: look for a set between them
                 if not refine_hole_sets(sets, lo, hi, style, nodes, tris, dens, region, to_threshold,
-                               mirrors):
+                                        mirrors, layout):
                     break
                 hi += 1
-            if not candidates:
+            if not candidates and budgets is not None:  # the grey optimum's void area
+                want = grey_saved * region.material.area
+            elif not candidates:
                 want = (1.0 - vf) * sets[-1][1]
             elif math.isfinite(u_hi):
                 want = a_lo + (_TARGET - u_lo) * (a_hi - a_lo) / max(u_hi - u_lo, 1e-12)
@@ -229,27 +217,51 @@ def lighten_plate(
             i = lo + 1
             while i + 1 < hi and sets[i + 1][1] <= want:
                 i += 1
+            if budgets is not None and math.isfinite(u_hi) and (lo < 0 or (
+                    len(candidates) >= 2 and candidates[-1].passes and candidates[-2].passes)):
+                # the first guess failed, or two passing steps in a row crept towards a failing
+                # set far off: the utilisation is not linear in hole area there (a cliff), so
+                # halve the bracket instead (budget runs only; the older search is kept as is)
+                i = max(i, (lo + hi + 1) // 2)
             level, area, raw_holes = sets[i]
             tc = time.perf_counter()
             holes = make(raw_holes)
             job.say(f"{plate.name}: verifying {len(holes)} holes at level {level:.3f}")
             kept, holed, analysis = job.verify(holes)
             if analysis is None:
+                if budgets is not None and unusable < _UNUSABLE_SETS:
+                    # the set could not be checked (no hole kept, or the holed plate could not
+                    # be meshed): leave it out of the search rather than bound the search by it
+                    unusable += 1
+                    sets.pop(i)
+                    hi -= 1
+                    continue
                 hi, u_hi, a_hi = i, 10.0, area
                 continue
             mass = mass_properties(holed).mass_g
-            u = limit_utilisation(analysis)
-            candidates.append(Candidate(level, len(kept), mass, analysis.passes,
-                                        failing_cases(analysis), time.perf_counter() - tc))
-            if analysis.passes:
+            u = utilisation(analysis)
+            ok = passes(analysis)
+            candidates.append(Candidate(level, len(kept), mass, ok,
+                                        failing_cases(analysis) or ("" if ok else "budget"),
+                                        time.perf_counter() - tc))
+            if ok:
                 lo, u_lo, a_lo = i, u, area
                 if best is None or mass < best[0] - 1e-9:
                     best = (mass, kept, holed, analysis)
             else:
                 hi, u_hi, a_hi = i, max(u, 1.0 + 1e-9), area
+                failed_mass = max(failed_mass, mass)
+            # With a stiffness budget, stop once another check can gain little: the lightest
+            # passing and the heaviest failing candidate lie within _SMALL_GAIN of the plate's
+            # mass.
+            if budgets is not None and best is not None and \
+                    best[0] - failed_mass < _SMALL_GAIN * m0:
+                break
         timings["verify"] = time.perf_counter() - t0
         if best is None:
-            notes.append("no candidate kept every case within its limits: no holes suggested")
+            notes.append("no candidate kept every case within its limits"
+                         + (" and its stiffness budget" if budgets is not None else "")
+                         + ": no holes suggested")
     if best is None:
         holes_out, after_plate, after = (), plate, before
         m1, cut1 = m0, cut0
@@ -264,6 +276,9 @@ def lighten_plate(
         cut_length_after_mm=float(sum(c.path.length() for c in cut1)),
         pierces_before=len(cut0), pierces_after=len(cut1), candidates=tuple(candidates),
         optimiser_iterations=iterations, volume_fraction=vf,
+        deflection_budget=budget, case_budgets=budgets or {},
+        grey_saved_fraction=grey_saved if density_field is not None else None,
+        keep_outs=region.keep_outs, design_region_mm2=region.free_area_mm2,
         design_region_fraction=region.free_fraction,
         pattern_shape=region.settings.pattern_shape if style == "pattern" else "",
         timings_s=timings, notes=tuple(notes), density=density_field)

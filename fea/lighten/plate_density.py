@@ -25,6 +25,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import scipy.sparse as sp
@@ -38,7 +39,7 @@ from platewright.fea.elements.bending_rigid import BENDING_MODE_NAMES, bending_r
 from platewright.fea.elements.membrane_rigid import MEMBRANE_MODE_NAMES, membrane_rigid_modes
 from platewright.fea.elements.quadratic import QuadraticMesh, quadratic_mesh
 from platewright.fea.loadcases.mapping import MappedCase, map_case
-from platewright.fea.loadcases.parse import Component, LoadCase
+from platewright.fea.loadcases.parse import STANDARD_GRAVITY_M_S2, Component, LoadCase
 from platewright.fea.mesh.triangles import Mesh
 from platewright.fea.solve import free_rigid_motions
 from platewright.geometry.errors import DesignError, Problem
@@ -78,6 +79,8 @@ class _CaseSystem:
     f_free: (nf,) loads. slot: index of each kept COO entry in the CSC data; keep: which of the
     m k k element entries (then the spring entries) lie in the free block; spring_vals: spring
     entries in the free block. indices, indptr: CSC pattern. n_dofs, dpn: sizes.
+    weight: (m, k) consistent loads of each element's own weight when the plate is solid (N,
+    N mm; None without self-weight); f_free includes their sum.
     """
 
     name: str
@@ -95,6 +98,7 @@ class _CaseSystem:
     dpn: int
     held_nodes: np.ndarray
     loaded_nodes: np.ndarray
+    weight: np.ndarray | None = None
 
 
 def _pattern(edof: np.ndarray, free: np.ndarray, n_dofs: int, spring: sp.spmatrix | None):
@@ -205,24 +209,42 @@ class PlateDensityModel:
         keep, slot, svals, indices, indptr = _pattern(edof, free, n_dofs, spring)
         held = np.asarray(mapped.supported_nodes, dtype=np.int64)
         held = held[held < mesh.n_nodes]
+        weight = _element_weights(self.plate, case, mesh) if case.self_weight else None
+        if weight is not None:  # loaded nodes: by the loads other than the plate's own weight
+            own = np.bincount(edof.ravel(), weights=weight.ravel(), minlength=n_dofs)
+            ext = np.abs((f - own).reshape(-1, dpn)).sum(axis=1)
+            loaded = np.flatnonzero(ext > 1e-9 * max(float(ext.max()), 1e-300))
         return _CaseSystem(case.name, case.family, ke0, edof, free, f[free], keep, slot, svals,
-                           indices, indptr, n_dofs, dpn, held, loaded)
+                           indices, indptr, n_dofs, dpn, held, loaded, weight)
 
     # ---- analysis
-    def _solve(self, s: _CaseSystem, x: np.ndarray, penal: float, emin_ratio: float
-               ) -> tuple[float, np.ndarray]:
-        """(compliance f^T u, N mm; u (n_dofs,) float) of one case at densities x."""
+    def _factor(self, s: _CaseSystem, x: np.ndarray, penal: float, emin_ratio: float) -> Any:
+        """LU factors of the free-free stiffness of case ``s`` at densities x."""
         stiff = emin_ratio + (1.0 - emin_ratio) * x**penal
         vals = np.concatenate([(stiff[:, None, None] * s.ke0).ravel(), s.spring_vals])
         data = np.bincount(s.slot, weights=vals[s.keep], minlength=s.indices.size)
         nf = s.free.size
         k = sp.csc_matrix((data, s.indices, s.indptr), shape=(nf, nf))
         try:
-            lu = spla.splu(k, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
-                           options={"SymmetricMode": True})
+            return spla.splu(k, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
+                             options={"SymmetricMode": True})
         except RuntimeError as exc:
             raise ValueError(f"load case '{s.name}': the stiffness matrix is singular (a part of "
                              "the mesh is not connected to the supports)") from exc
+
+    def _loads(self, s: _CaseSystem, x: np.ndarray) -> np.ndarray:
+        """Free-dof loads (nf,) of case ``s`` with each element's weight scaled by x."""
+        if s.weight is None:
+            return s.f_free
+        full = np.bincount(s.edof.ravel(), weights=((x - 1.0)[:, None] * s.weight).ravel(),
+                           minlength=s.n_dofs)
+        return s.f_free + full[s.free]
+
+    def _solve(self, s: _CaseSystem, x: np.ndarray, penal: float, emin_ratio: float
+               ) -> tuple[float, np.ndarray]:
+        """(compliance f^T u, N mm; u (n_dofs,) float) of one case at densities x, with the
+        loads of the solid plate."""
+        lu = self._factor(s, x, penal, emin_ratio)
         u = np.zeros(s.n_dofs)
         u[s.free] = lu.solve(s.f_free)
         return float(np.einsum("i,i->", s.f_free, u[s.free])), u
@@ -256,6 +278,69 @@ class PlateDensityModel:
             grad -= (w / c0) * dstiff * ce
         return float(obj), grad
 
+    def case_responses(self, x_phys: np.ndarray, *, penal: float = 3.0,
+                       emin_ratio: float = 1e-9) -> tuple[np.ndarray, np.ndarray]:
+        """Compliance of every case, (k,) float N mm, and its sensitivity d c_k / d x_e,
+        (k, m) float, at densities x_phys (m,) float (one solve per case)."""
+        x = self._checked(x_phys)
+        dstiff = penal * (1.0 - emin_ratio) * x ** (penal - 1.0)
+        values = np.zeros(len(self._cases))
+        grads = np.zeros((len(self._cases), self.n_elements))
+        for k, s in enumerate(self._cases):
+            values[k], u = self._solve(s, x, penal, emin_ratio)
+            ue = u[s.edof]
+            grads[k] = -dstiff * np.einsum("ei,eij,ej->e", ue, s.ke0, ue, optimize=True)
+        return values, grads
+
+    def case_deflection_norms(
+        self, x_phys: np.ndarray, *, penal: float = 3.0, emin_ratio: float = 1e-9,
+        power: float = 12.0, watch: np.ndarray | None = None, design_weight: bool = True,
+    ) -> tuple[np.ndarray, np.ndarray]:
+        """A smooth measure of each case's largest deflection and its sensitivity.
+
+        d_k = (sum_i a_i^P)^(1/P) over the watched nodes, a_i = |w_i| (bending) or
+        |(u_x, u_y)| (in plane), P = ``power``: a P-norm that tends to the largest deflection
+        as P grows. Returns (d (k,) float mm, d d_k / d x_e (k, m) float), the sensitivity by
+        the adjoint method (one more solve with the same factors per case). watch: (n,) bool
+        nodes measured (default: every node). design_weight: each element's own weight scales
+        with its density (the plate gets lighter as material goes), else the solid plate's
+        weight is kept.
+        """
+        x = self._checked(x_phys)
+        watch_idx = np.flatnonzero(np.ones(self.mesh.n_nodes, bool) if watch is None
+                                   else np.asarray(watch, bool))
+        dstiff = penal * (1.0 - emin_ratio) * x ** (penal - 1.0)
+        values = np.zeros(len(self._cases))
+        grads = np.zeros((len(self._cases), self.n_elements))
+        for k, s in enumerate(self._cases):
+            lu = self._factor(s, x, penal, emin_ratio)
+            f = self._loads(s, x) if design_weight else s.f_free
+            u = np.zeros(s.n_dofs)
+            u[s.free] = lu.solve(f)
+            un = u.reshape(-1, s.dpn)[watch_idx]
+            if s.family == "bending":
+                a = np.abs(un[:, 0])
+                da = np.zeros_like(un)
+                da[:, 0] = np.sign(un[:, 0])
+            else:
+                a = np.hypot(un[:, 0], un[:, 1])
+                da = un / np.maximum(a, 1e-300)[:, None]
+            top = float(a.max())
+            if not top > 0.0:
+                continue
+            r = a / top  # scaled against overflow
+            norm = float((r**power).sum() ** (1.0 / power))
+            values[k] = top * norm
+            rhs = np.zeros((self.mesh.n_nodes, s.dpn))
+            rhs[watch_idx] = (r ** (power - 1.0) * norm ** (1.0 - power))[:, None] * da
+            adj = np.zeros(s.n_dofs)
+            adj[s.free] = lu.solve(rhs.ravel()[s.free])
+            ae, ue = adj[s.edof], u[s.edof]
+            grads[k] = -dstiff * np.einsum("ei,eij,ej->e", ae, s.ke0, ue, optimize=True)
+            if design_weight and s.weight is not None:
+                grads[k] += np.einsum("ei,ei->e", ae, s.weight)
+        return values, grads
+
     def deflections(self, x_phys: np.ndarray, *, penal: float = 3.0,
                     emin_ratio: float = 1e-9) -> dict[str, float]:
         """Largest nodal deflection of every case, mm, at densities x_phys (m,) float.
@@ -272,7 +357,8 @@ class PlateDensityModel:
         return out
 
     def attached_elements(self) -> np.ndarray:
-        """(m,) bool: elements with a node that is supported or loaded in any case.
+        """(m,) bool: elements with a node that is supported or loaded in any case (loads
+        other than the plate's own weight).
 
         A natural set of passive (solid) elements: removing material where loads enter or
         supports hold would change the load path the cases describe.
@@ -312,3 +398,21 @@ def _to_vertices(mapped: MappedCase, prol: sp.csr_matrix, n_vertices: int
     if mapped.spring_matrix is not None:
         spring = sp.csr_matrix(prol.T @ mapped.spring_matrix @ prol)
     return np.asarray(f, dtype=float), fixed, spring
+
+
+def _element_weights(plate: Plate, case: LoadCase, mesh: Mesh) -> np.ndarray:
+    """Consistent loads of each element's own weight, (m, 9) bending or (m, 6) in plane, N
+    and N mm: the same uniform load as fea.loadcases.mapping's self-weight (weight per unit
+    area ``rho g g_factor t``; in plane along ``g_direction``, a third of each element's
+    weight on each corner, which is the quadratic element's consistent load carried to the
+    corners by the prolongation)."""
+    rho = plate.material.density_kg_m3 * 1e-9  # kg/mm^3
+    q = rho * STANDARD_GRAVITY_M_S2 * case.g_factor * plate.thickness_mm  # N/mm^2
+    if case.family == "bending":
+        return dkt.dkt_pressure_load(mesh.nodes, mesh.triangles, -q)
+    gx, gy = case.g_direction or (0.0, 0.0)
+    third = q * mesh.areas_mm2() / 3.0
+    fe = np.zeros((mesh.n_triangles, 3, 2))
+    fe[:, :, 0] = (gx * third)[:, None]
+    fe[:, :, 1] = (gy * third)[:, None]
+    return fe.reshape(-1, 6)

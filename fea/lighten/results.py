@@ -13,10 +13,12 @@ from typing import Any
 
 import numpy as np
 
+from platewright.fea.lighten.budget import budget_use
+from platewright.fea.lighten.keep_outs import KeepOut
 from platewright.fea.results import ESTIMATE_NOTE, PlateAnalysis
 from platewright.geometry.model import Feature, Plate
 
-__all__ = ["Candidate", "LighteningResult"]
+__all__ = ["Candidate", "DensityField", "LighteningResult"]
 
 
 def _num(v: float | None, digits: int = 6) -> float | None:
@@ -45,6 +47,24 @@ class Candidate:
 
 
 @dataclass(frozen=True)
+class DensityField:
+    """The optimised material layout the holes come from: nodes (n, 2) float mm, triangles
+    (m, 3) int, element densities (m,) float in [0, 1], the optimiser's iterations, the share
+    of the design region it keeps (volume_fraction) and the share of the plate's mass its grey
+    densities remove (saved_fraction: sum over the design region of (1 - density) x element
+    volume, over the plate's volume); curve: (budget, saved_fraction) of the continuous optimum
+    at more budgets, when asked."""
+
+    nodes: np.ndarray
+    triangles: np.ndarray
+    densities: np.ndarray
+    iterations: int = 0
+    volume_fraction: float = 1.0
+    saved_fraction: float = 0.0
+    curve: tuple[tuple[float, float], ...] = ()
+
+
+@dataclass(frozen=True)
 class LighteningResult:
     """The outcome of lightening one plate in one style.
 
@@ -56,9 +76,13 @@ class LighteningResult:
     cut path, mm. pierces_before, pierces_after. candidates: every verified candidate in search
     order. optimiser_iterations: SIMP updates made. volume_fraction: the SIMP bound on the design
     region. design_region_fraction: design region area / plate area. timings_s: stage -> s.
-    notes: what the reader must know (e.g. why no holes were kept). density: the field the
-    holes came from, (nodes (n, 2) float mm, triangles (m, 3) int, element densities (m,)
-    float), or None when no optimisation ran (not written to the report).
+    notes: what the reader must know (e.g. why no holes were kept). density: the DensityField
+    the holes came from, or None when no optimisation ran (not written to the report).
+    deflection_budget: the stiffness budget asked for (None: the cases' limits only);
+    case_budgets: case -> the budget applied (cut to the case's own deflection limit).
+    grey_saved_fraction: the mass share the continuous (grey) optimum removes in the same design
+    region at the same budget (None when no optimisation ran). keep_outs: the keep-out zones;
+    design_region_mm2: the design region's area.
     """
 
     plate: Plate
@@ -80,8 +104,12 @@ class LighteningResult:
     pattern_shape: str = ""
     timings_s: Mapping[str, float] = field(default_factory=dict)
     notes: tuple[str, ...] = ()
-    density: tuple[np.ndarray, np.ndarray, np.ndarray] | None = field(default=None, repr=False,
-                                                                       compare=False)
+    density: DensityField | None = field(default=None, repr=False, compare=False)
+    deflection_budget: float | None = None
+    case_budgets: Mapping[str, float] = field(default_factory=dict)
+    grey_saved_fraction: float | None = None
+    keep_outs: tuple[KeepOut, ...] = field(default=(), repr=False, compare=False)
+    design_region_mm2: float = 0.0
 
     @property
     def verified(self) -> bool:
@@ -98,14 +126,23 @@ class LighteningResult:
         """Mass removed over the plate's mass (dimensionless)."""
         return self.mass_saved_g / self.mass_before_g if self.mass_before_g > 0 else 0.0
 
+    @property
+    def share_of_grey_optimum(self) -> float | None:
+        """Mass saved by the cut holes over the grey optimum's saving (None without one)."""
+        g = self.grey_saved_fraction
+        if g is None or g <= 0.0:
+            return None
+        return self.mass_saved_fraction / g
+
     def to_report(self, files: Mapping[str, str] | None = None) -> dict[str, Any]:
         """JSON-ready dict for ``plates[].lightening`` of report.json (DESIGN.md contract plus
         cut length, pierces, style, iterations, timings). ``files``: kind -> relative path."""
         after = {c.name: c for c in self.after.cases}
+        used = budget_use(self.before, self.after, self.case_budgets) if self.case_budgets else {}
         cases = []
         for b in self.before.cases:
             a = after.get(b.name, b)
-            cases.append({
+            entry = {
                 "name": b.name, "family": b.family,
                 "deflection_before_mm": _num(b.max_deflection_mm),
                 "deflection_after_mm": _num(a.max_deflection_mm),
@@ -113,7 +150,13 @@ class LighteningResult:
                 "safety_factor_before": _num(b.safety_factor, 4),
                 "safety_factor_after": _num(a.safety_factor, 4),
                 "passes_before": b.passes, "passes_after": a.passes,
-            })
+            }
+            if b.name in self.case_budgets:
+                bk = self.case_budgets[b.name]
+                entry["budget"] = _num(bk, 6)
+                entry["allowed_deflection_mm"] = _num(b.max_deflection_mm * (1.0 + bk))
+                entry["budget_used"] = _num(used.get(b.name), 4)
+            cases.append(entry)
         return {
             "style": self.style,
             "pattern_shape": self.pattern_shape or None,
@@ -135,6 +178,22 @@ class LighteningResult:
             "candidates": [{"level": _num(c.level, 4), "holes": c.holes, "mass_g": _num(c.mass_g),
                             "passes": c.passes, "limited_by": c.worst or None,
                             "seconds": _num(c.seconds, 3)} for c in self.candidates],
+            "deflection_budget": _num(self.deflection_budget, 6),
+            "grey_optimum": {
+                "curve": [{"budget": _num(b, 6), "mass_saved_fraction": _num(f, 4)}
+                          for b, f in (self.density.curve if self.density is not None else ())],
+                "mass_saved_fraction": _num(self.grey_saved_fraction, 4),
+                "mass_saved_g": _num(None if self.grey_saved_fraction is None
+                                     else self.grey_saved_fraction * self.mass_before_g),
+                "cut_share": _num(self.share_of_grey_optimum, 4),
+            },
+            "design_region": {
+                "area_mm2": _num(self.design_region_mm2, 1),
+                "fraction": _num(self.design_region_fraction, 4),
+                "keep_outs": [{"name": k.name, "role": k.role, "ring_mm": _num(k.ring_mm, 3),
+                               "rule": k.rule, "area_mm2": _num(k.area_mm2, 1)}
+                              for k in self.keep_outs],
+            },
             "timings_s": {k: _num(v, 3) for k, v in self.timings_s.items()},
             "notes": list(self.notes),
             "note": ESTIMATE_NOTE,

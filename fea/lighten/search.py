@@ -21,7 +21,7 @@ import shapely
 
 from platewright.fea.analysis import analyse_plate
 from platewright.fea.lighten.design_region import DesignRegion
-from platewright.fea.lighten.patterns import pattern_holes
+from platewright.fea.lighten.patterns import Layout, pattern_holes
 from platewright.fea.lighten.tracing import LIGHTENING_KIND, holes_from_density
 from platewright.fea.loadcases.parse import Component, LoadCase
 from platewright.fea.results import PlateAnalysis
@@ -36,6 +36,8 @@ Progress = Callable[[str], None]
 RULES_FOR_NEW_HOLES = ("web", "edge_distance", "feature_size")
 #: Number of search levels (shares of the design region) turned into hole sets.
 _LEVELS = 16
+#: Element size of the one retry when a holed plate does not mesh, share of the usual size.
+_RETRY_SIZE = 0.7
 
 
 def with_holes(plate: Plate, holes: Sequence[Feature]) -> Plate:
@@ -106,31 +108,54 @@ class SearchJob:
             analysis = analyse_plate(candidate, self.cases, components=self.components,
                                      vehicle_mass_g=self.vehicle_mass_g, size_mm=self.size_mm,
                                      method=self.method)
-        except (DesignError, ValueError, RuntimeError):
+        except RuntimeError:
+            # The mesher's boundary recovery fails on some holed plates at the usual element
+            # size; one retry on a finer mesh (a finer mesh deflects a little more, so the check
+            # stays on the safe side)
+            try:
+                analysis = analyse_plate(candidate, self.cases, components=self.components,
+                                         vehicle_mass_g=self.vehicle_mass_g,
+                                         size_mm=_RETRY_SIZE * self._size_mm(), method=self.method)
+            except (DesignError, ValueError, RuntimeError):
+                return (), self.plate, None
+        except (DesignError, ValueError):
             return (), self.plate, None  # the holed plate could not be meshed or solved
         return kept, candidate, analysis
+
+    def _size_mm(self) -> float:
+        """The smallest element size the verifying analyses use, mm (as fea.analysis picks it:
+        the given size, else each case's, else the outline's bounding-box diagonal / 40)."""
+        if self.size_mm:
+            return float(self.size_mm)
+        x0, y0, x1, y1 = self.plate.outline.contours[0].bbox()
+        default = math.hypot(x1 - x0, y1 - y0) / 40.0
+        return min(float(c.mesh_size_mm or default) for c in self.cases)
 
 
 def hole_sets(style: str, nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray,
                region: DesignRegion, to_threshold: Callable[[float], float],
                levels: Sequence[float] | None = None,
-               mirrors: Sequence[tuple[float, float, float, float]] = ()
-               ) -> list[tuple[float, float, Any]]:
+               mirrors: Sequence[tuple[float, float, float, float]] = (),
+               layout: Layout | None = None) -> list[tuple[float, float, Any]]:
     """The distinct hole sets at the search ``levels`` (default 1/16, 2/16, ... 1), as (level,
     hole area mm^2, holes), ordered by hole area. Organic holes are shapely polygons (contours
     are fitted only for the sets that get verified); pattern holes are Features."""
     out: dict[tuple, tuple[float, float, Any]] = {}
     if levels is None:
         levels = list(np.arange(1, _LEVELS + 1) / _LEVELS)
+    traced: set[float] = set()
     for level in levels:
         thr = to_threshold(float(level))
+        if thr in traced:  # levels past the densest element share one threshold: one set
+            continue
+        traced.add(thr)
         if style == "organic":
             holes: Any = holes_from_density(nodes, tris, dens, region, thr, mirrors)
             area = float(sum(p.area for p in holes))
             key = tuple((round(p.centroid.x, 3), round(p.centroid.y, 3), round(p.area, 2))
                         for p in holes)
         else:
-            holes = pattern_holes(region, nodes, tris, dens, thr)
+            holes = pattern_holes(region, nodes, tris, dens, thr, layout, mirrors)
             area = float(sum(-h.contours[0].signed_area() for h in holes))
             key = tuple((round(h.center_mm[0], 3), round(h.center_mm[1], 3), round(area, 2))
                         for h in holes)
@@ -142,7 +167,8 @@ def hole_sets(style: str, nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray,
 def refine_hole_sets(sets: list[tuple[float, float, Any]], lo: int, hi: int, style: str,
             nodes: np.ndarray, tris: np.ndarray, dens: np.ndarray, region: DesignRegion,
             to_threshold: Callable[[float], float],
-            mirrors: Sequence[tuple[float, float, float, float]] = ()) -> bool:
+            mirrors: Sequence[tuple[float, float, float, float]] = (),
+            layout: Layout | None = None) -> bool:
     """Insert at ``hi`` the hole set of a level halfway between sets ``lo`` and ``hi`` (the
     bracket ends; -1 and len(sets) stand for levels 0 and 1) when it differs from both;
     halves the level gap up to 4 times. Returns whether a set was inserted."""
@@ -154,7 +180,7 @@ def refine_hole_sets(sets: list[tuple[float, float, Any]], lo: int, hi: int, sty
         mid = 0.5 * (l0 + l1)
         if l1 - l0 < 1.0 / 256.0:
             return False
-        found = hole_sets(style, nodes, tris, dens, region, to_threshold, (mid,), mirrors)
+        found = hole_sets(style, nodes, tris, dens, region, to_threshold, (mid,), mirrors, layout)
         if found and a0 + 1e-6 < found[0][1] < a1 - 1e-6:
             sets.insert(hi, found[0])
             return True

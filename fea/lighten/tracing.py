@@ -7,9 +7,10 @@ Steps, all lengths in mm:
    (marching triangles: each triangle contributes the part where the interpolant is below the
    threshold, a triangle or a quadrilateral), and the pieces are united (shapely);
 3. manufacturing rules by morphology: the void is clipped to the design region grown by half a
-   web, eroded by half the minimum web (two eroded holes are then at least one web apart: every
-   point of each keeps a disc of half a web inside its own hole) and clipped to the design
-   region, opened with the corner radius (every convex corner
+   web and eroded by half the minimum web into cores at least one web apart; each core grows
+   back into its void by half a web except within 1.5 webs of another core (so two holes stay
+   a web apart and a hole far from others keeps its whole void), the result is clipped to the
+   design region, opened with the corner radius (every convex corner
    of a hole becomes an arc of at least that radius, and no part is narrower than two radii),
    and holes narrower than ``min_hole_mm`` are dropped; a hole round an island of material gets
    four bridges one web wide (the island must stay attached); holes still closer than a web (a
@@ -139,12 +140,12 @@ def enforce_rules(void: shapely.Geometry, region: DesignRegion,
     web, r = float(s.min_web_mm), float(s.corner_radius_mm)
     for fx, fy, x0, y0 in mirrors:
         void = shapely.intersection(void, scale(void, xfact=fx, yfact=fy, origin=(x0, y0)))
-    # Clip to the region grown by half a web, then erode by half a web: holes reach the edge
-    # of the region (whose keep-outs already hold the web to every other contour), and two
-    # holes end at least one web apart; the clip to the region itself follows.
+    # Clip to the region grown by half a web and erode by half a web: the cores of the holes,
+    # each at least one web from the others; a void touching the region's edge keeps reaching
+    # it (the keep-outs already hold the web to every other contour).
     v = shapely.intersection(void, region.free.buffer(web / 2.0, quad_segs=_QUAD_SEGS))
-    v = v.buffer(-web / 2.0, quad_segs=_QUAD_SEGS)
-    v = shapely.intersection(v, region.free)
+    cores = _polygons(v.buffer(-web / 2.0, quad_segs=_QUAD_SEGS))
+    v = shapely.intersection(_regrown(cores, v, web), region.free)
     v = v.buffer(-r, quad_segs=_QUAD_SEGS).buffer(r, quad_segs=_QUAD_SEGS)
     holes = []
     for p in _bridged(_polygons(v), web, r):
@@ -159,6 +160,27 @@ def enforce_rules(void: shapely.Geometry, region: DesignRegion,
             kept.append(p)
     kept.sort(key=lambda p: (round(p.centroid.x, 6), round(p.centroid.y, 6)))
     return kept
+
+
+def _regrown(cores: list[shapely.Polygon], void: shapely.Geometry, web: float) -> shapely.Geometry:
+    """Each core grown back by half a web inside the void, less what lies within 1.5 webs of
+    another core: a point of hole i is then at least 1.5 w from core j, whose own hole reaches
+    at most w / 2 from it, so holes stay one web apart; holes far from each other get their
+    whole void back."""
+    if len(cores) <= 1:
+        return shapely.intersection(shapely.union_all([c.buffer(web / 2.0, quad_segs=_QUAD_SEGS)
+                                                       for c in cores]), void) if cores else \
+            shapely.Polygon()
+    grown = [shapely.intersection(c.buffer(web / 2.0, quad_segs=_QUAD_SEGS), void) for c in cores]
+    tree = shapely.STRtree(cores)
+    out = []
+    for i, g in enumerate(grown):
+        near = [j for j in tree.query(g, predicate="dwithin", distance=1.5 * web) if j != i]
+        if near:
+            g = shapely.difference(g, shapely.union_all(
+                [cores[j].buffer(1.5 * web, quad_segs=_QUAD_SEGS) for j in near]))
+        out.append(g)
+    return shapely.union_all(out)
 
 
 def _bridged(polys: list[shapely.Polygon], web: float, radius: float) -> list[shapely.Polygon]:
@@ -220,7 +242,13 @@ def _arc_bulge(pts: np.ndarray, tol: float) -> float | None:
     if circ is None:
         return None
     centre, radius = circ
-    if radius > 1e4 or np.any(np.abs(np.hypot(*(pts - centre).T) - radius) > tol):
+    off = np.abs(np.hypot(*(pts - centre).T) - radius)
+    if radius > 1e4 or np.any(off > tol):
+        return None
+    # Between two neighbouring points the arc bows away from the straight edge of the traced
+    # shape by its sagitta: with the points' own distance it must stay within the tolerance.
+    half = 0.5 * np.hypot(*np.diff(pts, axis=0).T)
+    if np.any(radius - np.sqrt(np.maximum(radius**2 - half**2, 0.0)) > tol - off.max()):
         return None
     ang = np.unwrap(np.arctan2(pts[:, 1] - centre[1], pts[:, 0] - centre[0]))
     step = np.diff(ang)

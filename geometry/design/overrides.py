@@ -12,7 +12,9 @@ Examples::
 The value is read as YAML (``180`` a number, ``true`` a flag, ``[10, 20]`` a list, anything
 else text, so an expression such as ``wheelbase_mm / 2`` works unquoted). An override may only
 replace a field that exists, or add one the schema allows at that place; a path that does not
-exist is an error with a did-you-mean hint. New references cannot be created by ``--set``
+exist is an error with a did-you-mean hint; an absent optional section the schema allows (e.g.
+``lightening.deflection_budget=0.1`` on a design without ``lightening:``) is created. New
+references cannot be created by ``--set``
 (a misspelt name would otherwise be added silently): add them to the file.
 """
 
@@ -101,7 +103,13 @@ def _resolve(tree: Any, parts: list[str | int], text: str) -> list[str | int]:
             if part not in node:
                 allowed = allowed_keys(tree, out)
                 creatable = allowed is not None and part in allowed
-                if not (last and creatable):
+                if creatable and not last and isinstance(parts[i + 1], str):
+                    # an absent optional section (a mapping the schema allows here): create it
+                    node[part] = {}
+                    if not allowed_keys(tree, [*out, part]):
+                        del node[part]
+                        creatable = False
+                if not (last and creatable) and part not in node:
                     known = list(node) if allowed is None else sorted(set(node) | set(allowed))
                     hint = suggest(part, known)
                     if allowed is None and out == ["references"]:

@@ -53,6 +53,7 @@ from platewright.geometry.errors import Problem
 
 __all__ = [
     "DESIGN", "PLATE", "OUTLINE", "LABEL", "MACHINE", "FEATURE_TYPES", "FIT_CLASSES", "LIGHTENING",
+    "KEEP_OUT_ROLES",
     "DEFAULT_LABEL_HEIGHT_MM", "Validated",
     "validate_design", "describe_schema", "allowed_keys",
     # re-exported from .schema_spec for the modules that import them from here
@@ -252,17 +253,34 @@ _ZONE = Record("solid zone (a box kept solid; open sides reach the plate edge)",
     "y_min_mm": Field(_MM, "lower side of the box (default: open)"),
     "y_max_mm": Field(_MM, "upper side of the box (default: open)"),
 })
+#: Keep-out roles of fea.lighten.keep_outs (geometry may not import fea: kept in step by a test).
+KEEP_OUT_ROLES = ("bearing_seat", "press_fit", "shaft_bore", "fastener", "slot", "motor_face",
+                  "cutout")
+_KEEP_OUT = Record("keep-out of one feature (overrides the ring its role gives)", {
+    "feature": Field(Text(), "feature id, or the id of a fastener array or mount (all its holes)",
+                     required=True),
+    "plate": Field(Text(word=True), "plate name (default: every plate with that feature)"),
+    "role": Field(Text(KEEP_OUT_ROLES), "what the feature does; sets the default ring (see "
+                  "`platewright lighten` in the README)"),
+    "ring_mm": Field(_OPT_MM, "ring of solid material kept round the feature's edge"),
+})
 #: The ``lightening:`` section read by ``platewright lighten`` (fea.design_region).
 LIGHTENING = Record("lightening (`platewright lighten`)", {
     "style": Field(Text(("organic", "pattern", "both")), "organic: free-form holes from the "
                    "optimised density; pattern: a regular array graded by it; both: compare",
                    default="organic"),
+    "deflection_budget": Field(Number(ge=0.0, le=10.0), "stiffness budget as a share: every load "
+                               "case may deflect at most (1 + budget) x the solid plate's, on top "
+                               "of its own limits (e.g. 0.1; default: only the cases' limits)"),
+    "budget_curve": Field(NumberList(Number(ge=0.0, le=10.0)), "budgets at which the report also "
+                          "plots the continuous optimum's mass saving (e.g. [0.02, 0.05, 0.1, "
+                          "0.2]; each costs one more optimisation, no finite-element check)"),
     "plates": Field(ListOf(Text(word=True), max_len=MAX_PLATES), "plates to lighten (default: "
                     "every plate with load cases)", default=[]),
     "edge_margin_mm": Field(_OPT_MM, "solid band along the outline (default: max(1.5 x "
                             "thickness, min_web_mm))"),
-    "feature_ring_mm": Field(_OPT_MM, "solid ring round every feature (default: max(1.5 x "
-                             "thickness, diameter) for round holes, min_web_mm for others)"),
+    "feature_ring_mm": Field(_OPT_MM, "one solid ring round every feature (default: by what "
+                             "each feature does, see keep_outs)"),
     "min_web_mm": Field(_OPT_MM, "web between new holes and to every contour (default: max(2 x "
                         "thickness, the material's min web))"),
     "corner_radius_mm": Field(_OPT_MM, "smallest corner radius of a new hole (default: max("
@@ -272,10 +290,12 @@ LIGHTENING = Record("lightening (`platewright lighten`)", {
     "chord_tol_mm": Field(Number(gt=0.0, le=1.0), "largest distance of a hole's lines and arcs "
                           "from the traced shape", default=0.05),
     "solid_zones": Field(ListOf(_ZONE, max_len=MAX_PLATES), "boxes kept solid (no holes)", default=[]),
+    "keep_outs": Field(ListOf(_KEEP_OUT, max_len=MAX_FEATURES_PER_PLATE), "per-feature role or ring width",
+                       default=[]),
     "keep_footprints": Field(Flag(), "keep component footprints and load areas solid",
                              default=True),
-    "pattern_shape": Field(Text(("round", "triangle", "slot")), "hole shape of the pattern "
-                           "style", default="round"),
+    "pattern_shape": Field(Text(("round", "triangle", "slot", "grid")), "hole shape of the pattern "
+                           "style", default="grid"),
     "pattern_pitch_mm": Field(_OPT_MM, "lattice pitch of the pattern style (default: bounding-"
                               "box diagonal / 12)"),
     "mesh_size_mm": Field(_OPT_MM, "element size of the optimisation mesh (default: bounding-"
@@ -447,5 +467,6 @@ def describe_schema() -> str:
             "`--set PATH=VALUE` changes one field before validation, e.g. "
             "`references.wheelbase_mm=180`, `plates[1].thickness_mm=4`, "
             "`plates.deck.features.left_bore.diameter_mm=8.1` (plates by `name`, features by "
-            "`id`). The value is read as YAML. New references must be added in the file.", ""]
+            "`id`). The value is read as YAML. An absent optional section is created (e.g. "
+            "`lightening.deflection_budget=0.1`). New references must be added in the file.", ""]
     return "\n".join(out).rstrip() + "\n"
